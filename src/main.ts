@@ -1,0 +1,22 @@
+import { createApp } from 'vue'
+import { createPinia } from 'pinia'
+import { Quasar } from 'quasar'
+import 'quasar/src/css/index.sass'
+import '@/css/fonts.css'
+import '@/css/app.scss'
+import { quasarOptions } from '../quasar.config'
+import App from '@/App.vue'
+import { router } from '@/router'
+import { bootPwa } from '@/boot/pwa'
+import { useUiStore } from '@/stores/ui'
+
+const app = createApp(App)
+app.use(Quasar, quasarOptions)
+app.use(createPinia())
+app.use(router)
+
+// Boot files run in this order, one concern each.
+useUiStore()
+bootPwa()
+
+app.mount('#app')

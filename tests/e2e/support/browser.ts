@@ -1,0 +1,47 @@
+import { mkdirSync, mkdtempSync, rmSync } from 'node:fs'
+import { tmpdir } from 'node:os'
+import { join } from 'node:path'
+import { type BrowserContext, chromium } from 'playwright-core'
+
+/** Where screenshots go (git-ignored). */
+export const artifactsDir = join(process.cwd(), 'tests', '.artifacts')
+
+// Debian's Chromium, headless, with the flags this closed network needs (no background calls home).
+const chromiumArgs = [
+  '--no-sandbox',
+  '--disable-gpu',
+  '--disable-background-networking',
+  '--disable-component-update',
+  '--disable-sync',
+  '--no-first-run',
+  '--disable-quic',
+]
+
+export interface Browser {
+  context: BrowserContext
+  close: () => Promise<void>
+}
+
+/** A fresh Chromium profile at a phone-sized viewport unless told otherwise. */
+export async function launchBrowser(
+  options: { viewport?: { width: number; height: number }; colorScheme?: 'light' | 'dark' } = {},
+): Promise<Browser> {
+  const profile = mkdtempSync(join(tmpdir(), 'lightseam-chromium-'))
+  mkdirSync(artifactsDir, { recursive: true })
+  const context = await chromium.launchPersistentContext(profile, {
+    executablePath: process.env.CHROMIUM_PATH ?? '/usr/bin/chromium',
+    headless: true,
+    args: chromiumArgs,
+    viewport: options.viewport ?? { width: 390, height: 844 },
+    deviceScaleFactor: 1,
+    colorScheme: options.colorScheme ?? 'light',
+    serviceWorkers: 'allow',
+  })
+  return {
+    context,
+    async close() {
+      await context.close()
+      rmSync(profile, { recursive: true, force: true })
+    },
+  }
+}

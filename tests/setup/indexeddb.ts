@@ -1,0 +1,2 @@
+// Dexie needs IndexedDB; in node tests it comes from fake-indexeddb.
+import 'fake-indexeddb/auto'
