@@ -1,0 +1,6 @@
+export * from './colour'
+export * from './loss'
+export * from './plan'
+export * from './acceptance'
+export * from './rollup'
+export * from './budget'
