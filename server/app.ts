@@ -1,0 +1,61 @@
+import express, { type Express } from 'express'
+import helmet from 'helmet'
+import cookieParser from 'cookie-parser'
+import type { AppContext, AppDeps } from './context'
+import { apiNotFound, errorHandler } from './middleware/errors'
+import { authRouter } from './routes/auth'
+import { closuresRouter } from './routes/closures'
+import { peopleRouter } from './routes/people'
+import { projectsRouter } from './routes/projects'
+import { splicesRouter } from './routes/splices'
+import { healthRouter } from './routes/health'
+import { serveApp } from './static'
+
+/** Builds the Express app around a context; never listens, so tests can drive it directly. */
+export function createApp(deps: AppDeps): Express {
+  const ctx: AppContext = { ...deps, registeredRoutes: new Set() }
+  const app = express()
+  app.locals.ctx = ctx
+  app.disable('x-powered-by')
+  app.set('trust proxy', ctx.config.trustProxyHops)
+  app.use(
+    helmet({
+      contentSecurityPolicy: {
+        useDefaults: false,
+        directives: {
+          defaultSrc: ["'self'"],
+          scriptSrc: ["'self'"],
+          // Quasar sets inline styles from script (CSSOM), which CSP counts as inline.
+          styleSrc: ["'self'", "'unsafe-inline'"],
+          imgSrc: ["'self'", 'data:', 'blob:'],
+          fontSrc: ["'self'", 'data:'],
+          connectSrc: ["'self'"],
+          workerSrc: ["'self'"],
+          manifestSrc: ["'self'"],
+          objectSrc: ["'none'"],
+          baseUri: ["'self'"],
+          formAction: ["'self'"],
+          frameAncestors: ["'none'"],
+        },
+      },
+      // Crews reach a LAN server over plain http; HSTS and upgrades would lock them out.
+      strictTransportSecurity: false,
+    }),
+  )
+
+  const api = express.Router()
+  api.use(express.json({ limit: '1mb', strict: true }))
+  api.use(cookieParser())
+  api.use(healthRouter(ctx))
+  api.use(authRouter(ctx))
+  api.use(projectsRouter(ctx))
+  api.use(closuresRouter(ctx))
+  api.use(splicesRouter(ctx))
+  api.use(peopleRouter(ctx))
+  api.use(apiNotFound)
+  app.use('/api', api)
+
+  serveApp(app, ctx.config.staticDir)
+  app.use(errorHandler)
+  return app
+}

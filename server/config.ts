@@ -1,0 +1,83 @@
+import { randomBytes } from 'node:crypto'
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs'
+import { dirname, resolve } from 'node:path'
+import { z } from 'zod'
+
+// The only place that reads process.env: everything else receives a Config.
+const envSchema = z.object({
+  NODE_ENV: z.enum(['development', 'production', 'test']).default('development'),
+  HOST: z.string().min(1).default('127.0.0.1'),
+  PORT: z.coerce.number().int().min(0).max(65535).default(3000),
+  LIGHTSEAM_DATA_DIR: z.string().min(1).default('data'),
+  LIGHTSEAM_DB: z.string().min(1).optional(),
+  LIGHTSEAM_JWT_SECRET: z
+    .string()
+    .refine((s) => Buffer.byteLength(s, 'utf8') >= 32, 'must be at least 32 bytes of random text')
+    .optional(),
+  LIGHTSEAM_BCRYPT_COST: z.coerce.number().int().min(4).max(15).default(11),
+  LIGHTSEAM_TRUST_PROXY: z.coerce.number().int().min(0).max(10).default(0),
+  LIGHTSEAM_STATIC_DIR: z.string().min(1).default('dist'),
+})
+
+export interface Config {
+  env: 'development' | 'production' | 'test'
+  host: string
+  port: number
+  dataDir: string
+  dbFile: string
+  staticDir: string
+  jwtSecret: Uint8Array
+  jwtIssuer: string
+  jwtAudience: string
+  accessTokenSeconds: number
+  refreshTokenDays: number
+  bcryptCost: number
+  trustProxyHops: number
+  /** Failed sign-ins allowed per account, and sign-in attempts per address, in each window. */
+  signInLimits: { windowMs: number; perAccount: number; perAddress: number }
+}
+
+export class ConfigError extends Error {
+  override name = 'ConfigError'
+}
+
+/** Reads the secret from the environment, or from data/, generating it there on first run. */
+function loadSecret(given: string | undefined, dataDir: string): Uint8Array {
+  if (given) return new TextEncoder().encode(given)
+  const file = resolve(dataDir, 'jwt-secret')
+  if (!existsSync(file)) {
+    mkdirSync(dirname(file), { recursive: true })
+    writeFileSync(file, randomBytes(48).toString('base64url'), { mode: 0o600 })
+  }
+  const secret = readFileSync(file, 'utf8').trim()
+  if (Buffer.byteLength(secret) < 32) throw new ConfigError(`${file} holds a secret shorter than 32 bytes.`)
+  return new TextEncoder().encode(secret)
+}
+
+/** Parses the environment once; a bad value stops the server with a message naming the variable. */
+export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Partial<Config> = {}): Config {
+  const parsed = envSchema.safeParse(env)
+  if (!parsed.success) {
+    const lines = parsed.error.issues.map((issue) => `  ${issue.path.join('.')}: ${issue.message}`)
+    throw new ConfigError(`Lightseam cannot start: the environment has bad settings:\n${lines.join('\n')}`)
+  }
+  const e = parsed.data
+  const dataDir = resolve(overrides.dataDir ?? e.LIGHTSEAM_DATA_DIR)
+  return {
+    env: e.NODE_ENV,
+    host: e.HOST,
+    port: e.PORT,
+    dataDir,
+    dbFile: resolve(e.LIGHTSEAM_DB ?? resolve(dataDir, 'lightseam.sqlite')),
+    staticDir: resolve(e.LIGHTSEAM_STATIC_DIR),
+    jwtSecret: overrides.jwtSecret ?? loadSecret(e.LIGHTSEAM_JWT_SECRET, dataDir),
+    jwtIssuer: 'lightseam',
+    jwtAudience: 'lightseam-app',
+    accessTokenSeconds: 15 * 60,
+    refreshTokenDays: 30,
+    bcryptCost: e.LIGHTSEAM_BCRYPT_COST,
+    trustProxyHops: e.LIGHTSEAM_TRUST_PROXY,
+    signInLimits: { windowMs: 15 * 60_000, perAccount: 5, perAddress: 30 },
+    ...overrides,
+  }
+}

@@ -1,0 +1,58 @@
+import { readFileSync } from 'node:fs'
+import type { AddressInfo } from 'node:net'
+import { fileURLToPath } from 'node:url'
+import { openDatabase } from '#db/client'
+import { runMigrations } from '#db/migrate'
+import { demoUsers, seedDemo } from '#db/seed'
+import { createApp } from './app'
+import { buildIfNeeded } from './build'
+import { ConfigError, loadConfig } from './config'
+
+const root = fileURLToPath(new URL('..', import.meta.url))
+const { version } = JSON.parse(readFileSync(new URL('../package.json', import.meta.url), 'utf8')) as {
+  version: string
+}
+
+function main(): void {
+  const config = loadConfig()
+  if (process.argv.includes('--build-if-needed')) buildIfNeeded(root, config.staticDir)
+
+  const database = openDatabase(config.dbFile)
+  runMigrations(database.db)
+  if (process.argv.includes('--seed-if-empty') && seedDemo(database.db, { bcryptCost: config.bcryptCost })) {
+    console.warn('Seeded the demo scenario. Demo-only sign-ins (never use these for real work):')
+    for (const user of demoUsers)
+      console.warn(`  ${user.role.padEnd(9)} ${user.email}  password: ${user.password}`)
+  }
+
+  const app = createApp({ config, database, version })
+  const server = app.listen(config.port, config.host, () => {
+    const { port } = server.address() as AddressInfo
+    console.warn(`Lightseam is listening on http://${config.host}:${port}`)
+  })
+
+  let closing = false
+  const shutdown = (signal: string) => {
+    if (closing) return
+    closing = true
+    console.warn(`${signal}: finishing open requests, then closing the database.`)
+    server.close(() => {
+      database.sqlite.pragma('wal_checkpoint(TRUNCATE)')
+      database.sqlite.close()
+      process.exit(0)
+    })
+    setTimeout(() => process.exit(1), 10_000).unref()
+  }
+  process.on('SIGTERM', () => shutdown('SIGTERM'))
+  process.on('SIGINT', () => shutdown('SIGINT'))
+}
+
+try {
+  main()
+} catch (error) {
+  if (error instanceof ConfigError) {
+    console.error(error.message)
+    process.exit(2)
+  }
+  throw error
+}

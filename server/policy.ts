@@ -1,0 +1,77 @@
+import type { Role } from '#shared/schemas/enums'
+
+/**
+ * Who may call which route. This table is the single source of truth: every route the API registers must
+ * have a line here (the permission-matrix test fails otherwise), and `route()` refuses to register one
+ * that does not. Record-level scope is applied by the services on top of the role check:
+ * splicer and foreman reach their own crew's closures, office reaches everything, and the inspector
+ * reads signed-off work only. Another crew's record answers 404, never 403, so ids cannot be probed.
+ */
+export interface Rule {
+  /** `public` needs no sign-in; otherwise the roles that pass the role check. */
+  roles: 'public' | readonly Role[]
+  /** How the service narrows the records: none, the caller's own account, or the closure's crew/state. */
+  scope: 'none' | 'self' | 'closure' | 'project'
+}
+
+const everyone = ['splicer', 'foreman', 'office', 'inspector'] as const
+const leads = ['foreman', 'office'] as const
+const office = ['office'] as const
+const reviewers = ['foreman', 'office', 'inspector'] as const
+
+export const policy = {
+  'GET /api/health': { roles: 'public', scope: 'none' },
+  'POST /api/auth/sign-in': { roles: 'public', scope: 'none' },
+  'POST /api/auth/refresh': { roles: 'public', scope: 'none' },
+  'POST /api/auth/sign-out': { roles: 'public', scope: 'none' },
+  'GET /api/auth/me': { roles: everyone, scope: 'self' },
+
+  'GET /api/projects': { roles: everyone, scope: 'project' },
+  'POST /api/projects': { roles: office, scope: 'none' },
+  'GET /api/projects/:projectId': { roles: everyone, scope: 'project' },
+  'PATCH /api/projects/:projectId': { roles: office, scope: 'project' },
+
+  'GET /api/projects/:projectId/cables': { roles: everyone, scope: 'project' },
+  'POST /api/projects/:projectId/cables': { roles: office, scope: 'project' },
+  'GET /api/cables/:cableId': { roles: everyone, scope: 'project' },
+  'PATCH /api/cables/:cableId': { roles: office, scope: 'project' },
+
+  'GET /api/projects/:projectId/closures': { roles: everyone, scope: 'closure' },
+  'POST /api/projects/:projectId/closures': { roles: office, scope: 'project' },
+  'GET /api/closures/:closureId': { roles: everyone, scope: 'closure' },
+  'PATCH /api/closures/:closureId': { roles: office, scope: 'closure' },
+  'PUT /api/closures/:closureId/assignment': { roles: leads, scope: 'closure' },
+  'GET /api/closures/:closureId/rollup': { roles: everyone, scope: 'closure' },
+
+  'GET /api/closures/:closureId/trays': { roles: everyone, scope: 'closure' },
+  'POST /api/closures/:closureId/trays': { roles: office, scope: 'closure' },
+  'PATCH /api/trays/:trayId': { roles: office, scope: 'closure' },
+
+  'GET /api/closures/:closureId/plan': { roles: everyone, scope: 'closure' },
+  'POST /api/closures/:closureId/plan': { roles: office, scope: 'closure' },
+  'POST /api/closures/:closureId/plan/csv': { roles: office, scope: 'closure' },
+  'POST /api/closures/:closureId/plan/generate': { roles: office, scope: 'closure' },
+  'PATCH /api/plan-rows/:rowId': { roles: office, scope: 'closure' },
+  'DELETE /api/plan-rows/:rowId': { roles: office, scope: 'closure' },
+
+  'GET /api/splices': { roles: everyone, scope: 'closure' },
+  'GET /api/splices/:spliceId': { roles: everyone, scope: 'closure' },
+
+  'GET /api/projects/:projectId/board': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/production': { roles: leads, scope: 'closure' },
+  'GET /api/audit': { roles: reviewers, scope: 'closure' },
+
+  'GET /api/users': { roles: office, scope: 'none' },
+  'POST /api/users': { roles: office, scope: 'none' },
+  'PATCH /api/users/:userId': { roles: office, scope: 'none' },
+  'GET /api/crews': { roles: leads, scope: 'none' },
+  'POST /api/crews': { roles: office, scope: 'none' },
+  'PATCH /api/crews/:crewId': { roles: office, scope: 'none' },
+} as const satisfies Record<string, Rule>
+
+export type RouteKey = keyof typeof policy
+
+/** The rule for a route key, or undefined when the table has no line for it. */
+export function ruleFor(key: string): Rule | undefined {
+  return (policy as Record<string, Rule>)[key]
+}
