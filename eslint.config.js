@@ -8,7 +8,16 @@ import tseslint from 'typescript-eslint'
 const layer = (patterns, message) => ['error', { patterns: patterns.map((group) => ({ group, message })) }]
 
 export default tseslint.config(
-  { ignores: ['dist/**', 'data/**', 'node_modules/**', 'db/migrations/**', 'tests/.artifacts/**', 'coverage/**'] },
+  {
+    ignores: [
+      'dist/**',
+      'data/**',
+      'node_modules/**',
+      'db/migrations/**',
+      'tests/.artifacts/**',
+      'coverage/**',
+    ],
+  },
   js.configs.recommended,
   ...tseslint.configs.recommended,
   ...vue.configs['flat/recommended'],
@@ -29,7 +38,20 @@ export default tseslint.config(
     files: ['shared/**/*.ts'],
     rules: {
       'no-restricted-imports': layer(
-        [['@/*', '#db/*', '#shared/*', '**/src/**', '**/server/**', '**/db/**', 'node:*', 'dexie', 'vue', 'express']],
+        [
+          [
+            '@/*',
+            '#db/*',
+            '#shared/*',
+            '**/src/**',
+            '**/server/**',
+            '**/db/**',
+            'node:*',
+            'dexie',
+            'vue',
+            'express',
+          ],
+        ],
         'shared/ is pure: it imports zod and other shared/ files only.',
       ),
     },
@@ -55,18 +77,24 @@ export default tseslint.config(
   {
     files: ['src/sync/**/*.ts'],
     rules: {
-      'no-restricted-imports': layer([['vue', 'pinia', 'quasar', '@/components/*', '@/stores/*']], 'sync/ has no Vue.'),
+      'no-restricted-imports': layer(
+        [['vue', 'pinia', 'quasar', '@/components/*', '@/stores/*']],
+        'sync/ has no Vue.',
+      ),
     },
   },
   {
     files: ['tests/**/*.ts'],
     rules: {
       '@typescript-eslint/no-non-null-assertion': 'off',
-      'no-restricted-properties': ['error', ...['describe', 'it', 'test'].map((object) => ({
-        object,
-        property: 'only',
-        message: 'Focused tests must not be committed.',
-      }))],
+      'no-restricted-properties': [
+        'error',
+        ...['describe', 'it', 'test'].map((object) => ({
+          object,
+          property: 'only',
+          message: 'Focused tests must not be committed.',
+        })),
+      ],
     },
   },
   prettier,

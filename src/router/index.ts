@@ -8,5 +8,6 @@ export const router = createRouter({
 })
 
 router.afterEach((to) => {
-  document.title = to.meta.title && to.meta.title !== 'Lightseam' ? `${to.meta.title} · Lightseam` : 'Lightseam'
+  document.title =
+    to.meta.title && to.meta.title !== 'Lightseam' ? `${to.meta.title} · Lightseam` : 'Lightseam'
 })

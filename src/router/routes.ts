@@ -13,7 +13,14 @@ export const routes: RouteRecordRaw[] = [
   {
     path: '/',
     component: () => import('@/layouts/MainLayout.vue'),
-    children: [{ path: '', name: 'home', component: () => import('@/pages/HomePage.vue'), meta: { title: 'Lightseam' } }],
+    children: [
+      {
+        path: '',
+        name: 'home',
+        component: () => import('@/pages/HomePage.vue'),
+        meta: { title: 'Lightseam' },
+      },
+    ],
   },
   {
     path: '/:catchAll(.*)*',

@@ -22,7 +22,9 @@ describe('app shell in Chromium', () => {
     const response = await page.goto(server.url)
     expect(response?.status()).toBe(200)
     await expect.poll(() => page.locator('header').textContent()).toContain('Lightseam')
-    await page.waitForFunction(() => document.documentElement.dataset.sw === 'registered', null, { timeout: 30_000 })
+    await page.waitForFunction(() => document.documentElement.dataset.sw === 'registered', null, {
+      timeout: 30_000,
+    })
     const scope = await page.evaluate(async () => (await navigator.serviceWorker.ready).scope)
     expect(scope).toBe(`${server.url}/`)
     await page.screenshot({ path: join(artifactsDir, 'shell-phone-light.png'), fullPage: true })
@@ -45,6 +47,18 @@ describe('app shell in Chromium', () => {
       await expect.poll(() => page.locator('header').textContent()).toContain('Lightseam')
     } finally {
       await browser.context.setOffline(false)
+    }
+  })
+
+  it('when the device prefers dark, then the shell follows it (vault work at night)', async () => {
+    const dark = await launchBrowser({ colorScheme: 'dark' })
+    try {
+      const page = await dark.context.newPage()
+      await page.goto(server.url)
+      await expect.poll(() => page.evaluate(() => document.body.classList.contains('body--dark'))).toBe(true)
+      await page.screenshot({ path: join(artifactsDir, 'shell-phone-dark.png'), fullPage: true })
+    } finally {
+      await dark.close()
     }
   })
 

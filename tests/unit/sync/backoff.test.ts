@@ -12,12 +12,16 @@ describe('sync retry backoff (SYNC.md: 1 s → 5 min with jitter)', () => {
 
   it('always stays between half the step and the step, never past 5 min', () => {
     fc.assert(
-      fc.property(fc.integer({ min: 0, max: 1000 }), fc.double({ min: 0, max: 1, maxExcluded: true, noNaN: true }), (n, r) => {
-        const step = Math.min(300_000, 1000 * 2 ** Math.min(n, 30))
-        const delay = backoffDelayMs(n, () => r)
-        expect(delay).toBeGreaterThanOrEqual(step / 2 - 1)
-        expect(delay).toBeLessThanOrEqual(step)
-      }),
+      fc.property(
+        fc.integer({ min: 0, max: 1000 }),
+        fc.double({ min: 0, max: 1, maxExcluded: true, noNaN: true }),
+        (n, r) => {
+          const step = Math.min(300_000, 1000 * 2 ** Math.min(n, 30))
+          const delay = backoffDelayMs(n, () => r)
+          expect(delay).toBeGreaterThanOrEqual(step / 2 - 1)
+          expect(delay).toBeLessThanOrEqual(step)
+        },
+      ),
     )
   })
 })
