@@ -7,7 +7,7 @@ import * as people from '../services/people'
 export function peopleRouter(ctx: AppContext): Router {
   const router = Router()
   route(ctx, router, 'GET /api/users', (req, res) => {
-    res.json(people.listUsers(ctx, parse(pageQuerySchema, req.query)))
+    res.json(people.listUsers(ctx, req.query))
   })
   route(ctx, router, 'POST /api/users', (req, res) => {
     res.status(201).json(people.createUser(ctx, res.locals.actor, req.body))

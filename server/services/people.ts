@@ -1,10 +1,14 @@
 import bcrypt from 'bcryptjs'
-import { asc, count, eq } from 'drizzle-orm'
+import { and, asc, count, eq, like, or, sql, type SQL } from 'drizzle-orm'
+import { z } from 'zod'
 import { writeTransaction } from '#db/client'
 import { crews, users } from '#db/schema/index'
 import {
   crewCreateSchema,
   crewUpdateSchema,
+  idSchema,
+  pageQuerySchema,
+  roleSchema,
   userCreateSchema,
   userUpdateSchema,
   type PageQuery,
@@ -41,11 +45,38 @@ function assertCrew(ctx: AppContext, crewId: string | null | undefined): void {
   }
 }
 
-export function listUsers(ctx: AppContext, page: PageQuery) {
+export const userListQuerySchema = pageQuerySchema
+  .extend({
+    role: roleSchema.optional(),
+    crewId: idSchema.optional(),
+    active: z.enum(['true', 'false']).optional(),
+    q: z.string().trim().min(1).max(80).optional(),
+  })
+  .strict()
+
+/** Users filtered by role, crew, state or a part of the name or address, sorted by name. */
+export function listUsers(ctx: AppContext, query: unknown) {
+  const q = userListQuerySchema.parse(query)
   const db = ctx.database.db
-  const items = db.select().from(users).orderBy(asc(users.name)).limit(page.limit).offset(page.offset).all()
-  const total = db.select({ n: count() }).from(users).get()?.n ?? 0
-  return { items: items.map(publicUser), total, ...page }
+  const filters: (SQL | undefined)[] = []
+  if (q.role) filters.push(eq(users.role, q.role))
+  if (q.crewId) filters.push(eq(users.crewId, q.crewId))
+  if (q.active) filters.push(eq(users.active, q.active === 'true'))
+  if (q.q) {
+    const pattern = `%${q.q.toLowerCase().replace(/[%_\\]/g, '\\$&')}%`
+    filters.push(or(like(sql`lower(${users.name})`, pattern), like(users.email, pattern)))
+  }
+  const where = and(...filters)
+  const items = db
+    .select()
+    .from(users)
+    .where(where)
+    .orderBy(asc(users.name))
+    .limit(q.limit)
+    .offset(q.offset)
+    .all()
+  const total = db.select({ n: count() }).from(users).where(where).get()?.n ?? 0
+  return { items: items.map(publicUser), total, limit: q.limit, offset: q.offset }
 }
 
 export function createUser(ctx: AppContext, actor: Actor, body: unknown) {

@@ -375,6 +375,20 @@ describe('users and crews', () => {
     ).toBe(400)
   })
 
+  it('when users are filtered by role, crew, state or name, then the server narrows the list', async () => {
+    const api = as(office)
+    const splicers = await api.get('/api/users?role=splicer&limit=500')
+    expect(splicers.body.items.length).toBeGreaterThanOrEqual(2)
+    expect(splicers.body.items.every((u: { role: string }) => u.role === 'splicer')).toBe(true)
+    const crewId = splicers.body.items[0].crewId
+    const crew = await api.get(`/api/users?crewId=${crewId}`)
+    expect(crew.body.items.every((u: { crewId: string }) => u.crewId === crewId)).toBe(true)
+    const named = await api.get('/api/users?q=ODUYA')
+    expect(named.body.items.map((u: { name: string }) => u.name)).toEqual(['Maren Oduya'])
+    expect((await api.get('/api/users?active=false')).body.total).toBe(0)
+    expect((await api.get('/api/users?role=admin')).status).toBe(400)
+  })
+
   it('when the office tries to disable itself, then it is refused', async () => {
     const me = (await as(office).get('/api/auth/me')).body.user
     expect((await as(office).patch(`/api/users/${me.id}`, { active: false })).status).toBe(400)
