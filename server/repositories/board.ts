@@ -174,7 +174,9 @@ function totalsOf(row: TotalsColumns): ClosureTotals {
     lossCount: row.loss_count,
     lossSum: row.loss_sum,
     lossMax: row.loss_max,
-    lossMean: row.loss_count > 0 ? Math.round((row.loss_sum / row.loss_count) * 1e4) / 1e4 : null,
+    // loss_sum holds whole thousandths over 1000: the mean is taken in thousandths, as shared summarizeTotals
+    // takes it, so the phone and the board show the same number.
+    lossMean: row.loss_count > 0 ? Math.round(row.loss_sum * 1000) / row.loss_count / 1000 : null,
     overTarget: row.over_target,
     overMaximum: row.over_maximum,
     resplices: row.resplices,

@@ -1,10 +1,10 @@
 import type BetterSqlite3 from 'better-sqlite3'
 import { type Conn, rawSqlite, type Sqlite } from '#db/client'
 import type { photoLinks, splices } from '#db/schema/index'
+import { dbEpsilon, toMilliDb } from '#shared/domain/loss'
+import { type FiberPair, pairKey, samePair } from '#shared/domain/plan'
+import { type RollupSplice, totalsOf } from '#shared/domain/rollup'
 import type { ProjectLimits } from '#shared/schemas/project'
-
-// dB values carry three decimals: 0.100 against a 0.10 target is on target, 0.101 is over.
-const LOSS_EPSILON_DB = 5e-4
 
 /** What the caller supplies for a new splice; the server owns server_seq, is_current and the tombstone. */
 export type SpliceInput = Omit<
@@ -35,27 +35,52 @@ export class SpliceWriteError extends Error {
   }
 }
 
-interface PairRow {
-  cable_a_id: string
-  fiber_a: number
-  cable_b_id: string
-  fiber_b: number
+/** A splice as the roll-up judges it, read with the shared field names so shared functions take it as is. */
+interface JudgedSplice extends FiberPair {
+  id: string
+  trayId: string
+  slot: number
+  lossDb: number | null
+  attempt: number
+  acceptReason: string | null
 }
 
-interface SupersededRow extends PairRow {
-  id: string
-  closure_id: string
-  tray_id: string
-  slot: number
-  loss_db: number | null
-  is_current: number
+interface SupersededRow extends JudgedSplice {
+  closureId: string
+  isCurrent: number
   deleted: number
 }
 
-interface SlotState {
-  logged: number
-  offPlan: number
-  mismatches: number
+// Two records join the same fiber ends in either orientation, as shared samePair: which side the splicer called
+// A does not change the joint. `y` is another table alias, or '@' for the @cableAId … @fiberB parameters.
+function pairMatchSql(x: string, y: string): string {
+  const [a, fa, b, fb] =
+    y === '@'
+      ? ['@cableAId', '@fiberA', '@cableBId', '@fiberB']
+      : [`${y}.cable_a_id`, `${y}.fiber_a`, `${y}.cable_b_id`, `${y}.fiber_b`]
+  const side = (ca: string, cfa: string, cb: string, cfb: string) =>
+    `(${x}.cable_a_id = ${ca} AND ${x}.fiber_a = ${cfa} AND ${x}.cable_b_id = ${cb} AND ${x}.fiber_b = ${cfb})`
+  return `(${side(a, fa, b, fb)} OR ${side(b, fb, a, fa)})`
+}
+
+// One value per unordered pair, so plan rows and splices can be grouped and joined on a single column.
+function pairKeySql(x: string): string {
+  const a = `${x}.cable_a_id || '#' || ${x}.fiber_a`
+  const b = `${x}.cable_b_id || '#' || ${x}.fiber_b`
+  return `(min(${a}, ${b}) || '|' || max(${a}, ${b}))`
+}
+
+// shared toMilliDb is Math.round(dB × 1000), halves towards +∞; SQLite's round() takes halves away from zero,
+// so the floor form is spelt out. Sums of these whole numbers are exact in any order, as in totalsOf.
+function milliDbSql(db: string): string {
+  const v = `(${db}) * 1000`
+  return `(CASE WHEN ${v} - floor(${v}) >= 0.5 THEN floor(${v}) + 1 ELSE floor(${v}) END)`
+}
+
+// The loss judgement of shared lossStatus on the estimate: over_target, accepted_with_flag and over_maximum
+// all count as over the target, so an accept reason moves nothing here.
+function overTargetSql(loss: string): string {
+  return `(${loss} > @overTarget OR ${loss} > @overMaximum)`
 }
 
 const recomputeColumns =
@@ -63,77 +88,81 @@ const recomputeColumns =
   'photos, last_activity_at'
 
 /**
- * The full roll-up from rows, as one set-based statement; `scope` picks the closures. Same rules as the
- * incremental path in insertSplice, which the property test holds it to.
+ * One closure's full roll-up from rows, as one set-based statement. The same rules as shared rollUpClosure and
+ * as the incremental path in insertSplice, which tests/unit/db/rollup-parity.test.ts holds both to.
  */
-function recomputeSql(scope: 'closure' | 'project'): string {
-  const inScope = (column: string) =>
-    scope === 'closure'
-      ? `${column} = @scopeId`
-      : `${column} IN (SELECT id FROM closures WHERE project_id = @scopeId)`
-  // Either orientation: which side the splicer called A does not change the joint (shared samePair).
-  const matches =
-    '((pr.cable_a_id = x.cable_a_id AND pr.fiber_a = x.fiber_a AND pr.cable_b_id = x.cable_b_id AND pr.fiber_b = x.fiber_b)' +
-    ' OR (pr.cable_a_id = x.cable_b_id AND pr.fiber_a = x.fiber_b AND pr.cable_b_id = x.cable_a_id AND pr.fiber_b = x.fiber_a))'
+function recomputeSql(): string {
   const updates = recomputeColumns
     .split(', ')
     .map((column) => `${column} = excluded.${column}`)
     .join(', ')
+  // Pairs are matched anywhere in the closure (logged, off_plan): one sort of the closure's plan rows and
+  // current splices by pair key counts both sides of every pair, with no index on the fibers needed. Each
+  // aggregate below has no GROUP BY, so it gives exactly one row, also for a closure with no rows.
   return `
+    WITH pairs AS (
+      SELECT sum(planned) AS planned, sum(spliced) AS spliced
+      FROM (
+        SELECT ${pairKeySql('pr')} AS pair, 1 AS planned, 0 AS spliced
+        FROM plan_rows pr
+        WHERE pr.closure_id = @closureId AND pr.deleted = 0
+        UNION ALL
+        SELECT ${pairKeySql('x')}, 0, 1
+        FROM splices x
+        WHERE x.closure_id = @closureId AND x.is_current = 1 AND x.deleted = 0
+      )
+      GROUP BY pair
+    )
     INSERT INTO closure_totals (closure_id, project_id, ${recomputeColumns})
-    SELECT c.id, c.project_id, coalesce(p.planned, 0), coalesce(p.logged, 0), coalesce(s.off_plan, 0),
-      coalesce(s.loss_count, 0), round(coalesce(s.loss_sum, 0), 6), s.loss_max, coalesce(s.over_target, 0),
-      coalesce(s.over_maximum, 0), coalesce(a.resplices, 0), coalesce(s.mismatches, 0), coalesce(s.photos, 0),
+    SELECT c.id, c.project_id, p.planned, p.logged, p.off_plan, s.loss_count, s.loss_milli / 1000.0,
+      ${milliDbSql('s.loss_max')} / 1000.0, s.over_target, s.over_maximum, a.resplices, s.mismatches, s.photos,
       a.last_activity_at
-    FROM closures c
-    LEFT JOIN (
-      SELECT pr.closure_id, count(*) AS planned,
-        sum(EXISTS (SELECT 1 FROM splices x
-          WHERE x.closure_id = pr.closure_id AND x.tray_id = pr.tray_id AND x.slot = pr.slot
-            AND x.is_current = 1 AND x.deleted = 0 AND ${matches})) AS logged
-      FROM plan_rows pr
-      WHERE pr.deleted = 0 AND ${inScope('pr.closure_id')}
-      GROUP BY pr.closure_id
-    ) p ON p.closure_id = c.id
-    LEFT JOIN (
-      SELECT x.closure_id,
-        sum(pr.id IS NULL OR NOT (${matches})) AS off_plan,
-        sum(pr.id IS NOT NULL AND NOT (${matches})) AS mismatches,
-        count(x.loss_db) AS loss_count, sum(x.loss_db) AS loss_sum, max(x.loss_db) AS loss_max,
-        sum(x.loss_db > @overTarget) AS over_target, sum(x.loss_db > @overMaximum) AS over_maximum,
-        sum(EXISTS (SELECT 1 FROM photo_links l
-          WHERE l.entity = 'splice' AND l.entity_id = x.id AND l.deleted = 0)) AS photos
+    FROM closures c,
+    (
+      SELECT coalesce(sum(planned), 0) AS planned,
+        coalesce(sum(CASE WHEN spliced > 0 THEN planned ELSE 0 END), 0) AS logged,
+        coalesce(sum(CASE WHEN planned = 0 THEN spliced ELSE 0 END), 0) AS off_plan
+      FROM pairs
+    ) p,
+    (
+      SELECT coalesce(sum(pr.id IS NULL OR NOT ${pairMatchSql('pr', 'x')}), 0) AS mismatches,
+        count(x.loss_db) AS loss_count, coalesce(sum(${milliDbSql('x.loss_db')}), 0) AS loss_milli,
+        max(x.loss_db) AS loss_max, coalesce(sum(${overTargetSql('x.loss_db')}), 0) AS over_target,
+        coalesce(sum(x.loss_db > @overMaximum), 0) AS over_maximum,
+        coalesce(sum(EXISTS (SELECT 1 FROM photo_links l
+          WHERE l.entity = 'splice' AND l.entity_id = x.id AND l.deleted = 0)), 0) AS photos
       FROM splices x
       LEFT JOIN plan_rows pr
         ON pr.tray_id = x.tray_id AND pr.slot = x.slot AND pr.closure_id = x.closure_id AND pr.deleted = 0
-      WHERE x.is_current = 1 AND x.deleted = 0 AND ${inScope('x.closure_id')}
-      GROUP BY x.closure_id
-    ) s ON s.closure_id = c.id
-    LEFT JOIN (
-      SELECT closure_id, sum(is_current = 0) AS resplices, max(created_at) AS last_activity_at
+      WHERE x.closure_id = @closureId AND x.is_current = 1 AND x.deleted = 0
+    ) s,
+    (
+      SELECT coalesce(sum(is_current = 0), 0) AS resplices, max(created_at) AS last_activity_at
       FROM splices
-      WHERE deleted = 0 AND ${inScope('closure_id')}
-      GROUP BY closure_id
-    ) a ON a.closure_id = c.id
-    WHERE ${scope === 'closure' ? 'c.id' : 'c.project_id'} = @scopeId
+      WHERE closure_id = @closureId AND deleted = 0
+    ) a
+    WHERE c.id = @closureId
     ON CONFLICT (closure_id) DO UPDATE SET project_id = excluded.project_id, ${updates}`
 }
 
 type Statement<P extends unknown[] = unknown[], R = unknown> = BetterSqlite3.Statement<P, R>
 
+type PairParams = { closureId: string } & FiberPair
+
 interface Statements {
   supersededRow: Statement<[string], SupersededRow>
   markSuperseded: Statement<[number, string]>
   insert: Statement<[Record<string, unknown>]>
-  planAtSlot: Statement<[string, number, string], PairRow>
-  currentAtSlot: Statement<[string, string, number], PairRow & { id: string }>
+  planAtSlot: Statement<[string, number, string], FiberPair>
+  planRowsWithPair: Statement<[PairParams], { n: number }>
+  otherCurrentWithPair: Statement<[PairParams & { exceptId: string | null }], { has: number }>
   addToTotals: Statement<[Record<string, unknown>]>
   hasPhoto: Statement<[string], { has: number }>
   spliceForPhoto: Statement<[string], { closure_id: string; is_current: number; deleted: number }>
   insertPhotoLink: Statement<[Record<string, unknown>]>
   bumpPhotos: Statement<[string]>
-  recomputeClosure: Statement<[{ scopeId: string; overTarget: number; overMaximum: number }]>
-  recomputeProject: Statement<[{ scopeId: string; overTarget: number; overMaximum: number }]>
+  recomputeClosure: Statement<[{ closureId: string; overTarget: number; overMaximum: number }]>
+  projectClosures: Statement<[string], { id: string }>
   projectLimits: Statement<[string], { limits: string }>
 }
 
@@ -145,7 +174,9 @@ function statements(sqlite: Sqlite): Statements {
   if (found) return found
   const made: Statements = {
     supersededRow: sqlite.prepare(
-      `SELECT id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, loss_db, is_current, deleted
+      `SELECT id, closure_id AS closureId, tray_id AS trayId, slot, cable_a_id AS cableAId, fiber_a AS fiberA,
+         cable_b_id AS cableBId, fiber_b AS fiberB, loss_db AS lossDb, attempt, accept_reason AS acceptReason,
+         is_current AS isCurrent, deleted
        FROM splices WHERE id = ?`,
     ),
     markSuperseded: sqlite.prepare('UPDATE splices SET is_current = 0, server_seq = ? WHERE id = ?'),
@@ -158,24 +189,33 @@ function statements(sqlite: Sqlite): Statements {
          @clientId, 1, @flags, @reviewState, @createdAt, @serverSeq, 0)`,
     ),
     planAtSlot: sqlite.prepare(
-      `SELECT cable_a_id, fiber_a, cable_b_id, fiber_b FROM plan_rows
-       WHERE tray_id = ? AND slot = ? AND closure_id = ? AND deleted = 0`,
+      `SELECT cable_a_id AS cableAId, fiber_a AS fiberA, cable_b_id AS cableBId, fiber_b AS fiberB
+       FROM plan_rows WHERE tray_id = ? AND slot = ? AND closure_id = ? AND deleted = 0`,
     ),
-    currentAtSlot: sqlite.prepare(
-      `SELECT id, cable_a_id, fiber_a, cable_b_id, fiber_b FROM splices
-       WHERE closure_id = ? AND tray_id = ? AND slot = ? AND is_current = 1 AND deleted = 0`,
+    // No index leads with the fibers, so these two read the closure's plan rows and current splices (hundreds
+    // at most, through plan_rows_closure and splices_closure_current); they run only when a pair may change.
+    planRowsWithPair: sqlite.prepare(
+      `SELECT count(*) AS n FROM plan_rows pr
+       WHERE pr.closure_id = @closureId AND pr.deleted = 0 AND ${pairMatchSql('pr', '@')}`,
+    ),
+    otherCurrentWithPair: sqlite.prepare(
+      `SELECT EXISTS (SELECT 1 FROM splices x
+         WHERE x.closure_id = @closureId AND x.is_current = 1 AND x.deleted = 0 AND x.id IS NOT @exceptId
+           AND ${pairMatchSql('x', '@')}) AS has`,
     ),
     // Deltas, so the row is never read first. When the worst current splice was just replaced, the partial
-    // index finds the closure's new worst (the subquery sees this transaction's writes).
+    // index finds the closure's new worst (the subquery sees this transaction's writes). Losses are kept in
+    // whole thousandths, as shared totalsOf keeps them: loss_sum is their sum / 1000, loss_max the highest.
     addToTotals: sqlite.prepare(
       `UPDATE closure_totals SET
          logged = logged + @logged, off_plan = off_plan + @offPlan, mismatches = mismatches + @mismatches,
-         loss_count = loss_count + @lossCount, loss_sum = round(loss_sum + @lossSum, 6),
+         loss_count = loss_count + @lossCount, loss_sum = (round(loss_sum * 1000) + @lossMilli) / 1000.0,
          over_target = over_target + @overTarget, over_maximum = over_maximum + @overMaximum,
          resplices = resplices + @resplices, photos = photos + @photos,
          loss_max = CASE
            WHEN @oldLoss IS NOT NULL AND loss_max IS NOT NULL AND @oldLoss >= loss_max THEN
-             (SELECT max(loss_db) FROM splices WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0)
+             (SELECT ${milliDbSql('m.worst')} / 1000.0 FROM (SELECT max(loss_db) AS worst FROM splices
+               WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0) m)
            WHEN @newLoss IS NOT NULL AND (loss_max IS NULL OR @newLoss > loss_max) THEN @newLoss
            ELSE loss_max END,
          last_activity_at = CASE
@@ -192,75 +232,42 @@ function statements(sqlite: Sqlite): Statements {
        VALUES (@id, @sha256, @entity, @entityId, @addedBy, @createdAt, @serverSeq, 0)`,
     ),
     bumpPhotos: sqlite.prepare('UPDATE closure_totals SET photos = photos + 1 WHERE closure_id = ?'),
-    recomputeClosure: sqlite.prepare(recomputeSql('closure')),
-    recomputeProject: sqlite.prepare(recomputeSql('project')),
+    recomputeClosure: sqlite.prepare(recomputeSql()),
+    projectClosures: sqlite.prepare('SELECT id FROM closures WHERE project_id = ?'),
     projectLimits: sqlite.prepare('SELECT limits FROM projects WHERE id = ?'),
   }
   cache.set(sqlite, made)
   return made
 }
 
-function samePair(a: PairRow, b: PairRow): boolean {
-  const straight =
-    a.cable_a_id === b.cable_a_id &&
-    a.fiber_a === b.fiber_a &&
-    a.cable_b_id === b.cable_b_id &&
-    a.fiber_b === b.fiber_b
-  const swapped =
-    a.cable_a_id === b.cable_b_id &&
-    a.fiber_a === b.fiber_b &&
-    a.cable_b_id === b.cable_a_id &&
-    a.fiber_b === b.fiber_a
-  return straight || swapped
-}
-
-/** A tray slot as the plan and the current splices see it. */
-interface SlotView {
-  trayId: string
-  slot: number
-  plan: PairRow | undefined
-  current: Array<PairRow & { id: string }>
-}
-
-function readSlot(st: Statements, closureId: string, trayId: string, slot: number): SlotView {
-  return {
-    trayId,
-    slot,
-    plan: st.planAtSlot.get(trayId, slot, closureId),
-    current: st.currentAtSlot.all(closureId, trayId, slot),
-  }
-}
-
-function judgeSlot({ plan, current }: SlotView): SlotState {
-  const offPlan = plan ? current.filter((row) => !samePair(row, plan)).length : current.length
-  return {
-    logged: plan && current.some((row) => samePair(row, plan)) ? 1 : 0,
-    offPlan,
-    mismatches: plan ? offPlan : 0,
-  }
-}
-
-function sumSlots(states: SlotState[]): SlotState {
-  return states.reduce(
-    (sum, s) => ({
-      logged: sum.logged + s.logged,
-      offPlan: sum.offPlan + s.offPlan,
-      mismatches: sum.mismatches + s.mismatches,
-    }),
-    { logged: 0, offPlan: 0, mismatches: 0 },
-  )
-}
-
 function thresholds(limits: ProjectLimits) {
+  // The same sums as shared dbAbove (`a > b + dbEpsilon`), so SQL and the phone draw the line at one double.
   return {
-    overTarget: limits.estimate.contractTargetDb + LOSS_EPSILON_DB,
-    overMaximum: limits.estimate.standardMaxDb + LOSS_EPSILON_DB,
+    overTarget: limits.estimate.contractTargetDb + dbEpsilon,
+    overMaximum: limits.estimate.standardMaxDb + dbEpsilon,
+  }
+}
+
+/** What one current splice adds to the loss columns, worked out by shared totalsOf so they cannot drift. */
+function lossPart(splice: JudgedSplice, limits: ProjectLimits) {
+  const one: RollupSplice = { ...splice, supersedesId: null }
+  const totals = totalsOf([one], limits)
+  return {
+    count: totals.withLoss,
+    milli: totals.lossMilliDb,
+    overTarget: totals.overTarget,
+    overMaximum: totals.overMaximum,
+    worst: splice.lossDb === null ? null : toMilliDb(splice.lossDb) / 1000,
   }
 }
 
 /**
  * Inserts a splice and keeps closure_totals current in the caller's transaction; a splice that supersedes
  * another makes that attempt no longer current.
+ *
+ * Only the added splice and the attempt it replaces change status: off_plan and mismatches move by their own
+ * verdicts (the plan is fixed meanwhile), logged by the plan rows of a pair that gains its first current
+ * splice or loses its last one.
  */
 export function insertSplice(
   conn: Conn,
@@ -270,31 +277,77 @@ export function insertSplice(
   const sqlite = rawSqlite(conn)
   const st = statements(sqlite)
   const { serverSeq, limits } = options
+  const { closureId } = splice
   const createdAt = splice.createdAt ?? new Date().toISOString()
-  const lossDb = splice.lossDb ?? null
+  const added: JudgedSplice = {
+    id: splice.id,
+    trayId: splice.trayId,
+    slot: splice.slot,
+    cableAId: splice.cableAId,
+    fiberA: splice.fiberA,
+    cableBId: splice.cableBId,
+    fiberB: splice.fiberB,
+    lossDb: splice.lossDb ?? null,
+    attempt: splice.attempt ?? 1,
+    acceptReason: splice.acceptReason ?? null,
+  }
 
   let old: SupersededRow | undefined
   if (splice.supersedesId) {
     old = st.supersededRow.get(splice.supersedesId)
     if (!old) throw new SpliceWriteError('supersedes_unknown', `splice ${splice.supersedesId} does not exist`)
-    if (old.closure_id !== splice.closureId) {
+    if (old.closureId !== closureId) {
       throw new SpliceWriteError('supersedes_other_closure', `splice ${old.id} belongs to another closure`)
     }
   }
   // Only a current, live attempt counts in the totals; replacing one that was already replaced changes nothing.
-  const counted = old !== undefined && old.is_current === 1 && old.deleted === 0 ? old : undefined
+  const removed = old !== undefined && old.isCurrent === 1 && old.deleted === 0 ? old : undefined
 
-  // A re-splice usually stays in its slot, but the old attempt's slot is re-judged either way.
-  const views = [readSlot(st, splice.closureId, splice.trayId, splice.slot)]
-  if (old && (old.tray_id !== splice.trayId || old.slot !== splice.slot)) {
-    views.push(readSlot(st, splice.closureId, old.tray_id, old.slot))
+  // Everything is read before the write, and the new state worked out from it rather than read again.
+  const counts = new Map<string, number>()
+  const planRowsWith = (pair: FiberPair) => {
+    const key = pairKey(pair)
+    let n = counts.get(key)
+    if (n === undefined) {
+      n = st.planRowsWithPair.get({ closureId, ...pairOf(pair) })?.n ?? 0
+      counts.set(key, n)
+    }
+    return n
   }
-  const oldHadPhoto = counted ? st.hasPhoto.get(counted.id)?.has === 1 : false
+  // Plan rows logged only through `splice`: none while another current splice joins its pair too.
+  const loggedOnlyBy = (splice: JudgedSplice) => {
+    const rows = planRowsWith(splice)
+    if (rows === 0) return 0
+    const params = { closureId, ...pairOf(splice), exceptId: removed?.id ?? null }
+    return st.otherCurrentWithPair.get(params)?.has === 1 ? 0 : rows
+  }
+  const mismatched = (splice: JudgedSplice) => {
+    const row = st.planAtSlot.get(splice.trayId, splice.slot, closureId)
+    return row === undefined || !samePair(row, splice) ? 1 : 0
+  }
 
-  if (old && old.is_current === 1) st.markSuperseded.run(serverSeq, old.id)
+  let logged = 0
+  let offPlan = 0
+  let mismatches = 0
+  const samePairAsRemoved = removed !== undefined && samePair(removed, added)
+  // A re-splice of the same joint (the usual case) leaves the pair and slot verdicts as they were.
+  if (!samePairAsRemoved) {
+    logged += loggedOnlyBy(added)
+    offPlan += planRowsWith(added) === 0 ? 1 : 0
+    if (removed) {
+      logged -= loggedOnlyBy(removed)
+      offPlan -= planRowsWith(removed) === 0 ? 1 : 0
+    }
+  }
+  if (!(samePairAsRemoved && removed.trayId === added.trayId && removed.slot === added.slot)) {
+    mismatches += mismatched(added) - (removed ? mismatched(removed) : 0)
+  }
+  const oldHadPhoto = removed ? st.hasPhoto.get(removed.id)?.has === 1 : false
+
+  if (old && old.isCurrent === 1) st.markSuperseded.run(serverSeq, old.id)
   st.insert.run({
     id: splice.id,
-    closureId: splice.closureId,
+    closureId,
     trayId: splice.trayId,
     slot: splice.slot,
     cableAId: splice.cableAId,
@@ -302,12 +355,12 @@ export function insertSplice(
     cableBId: splice.cableBId,
     fiberB: splice.fiberB,
     method: splice.method,
-    lossDb,
-    attempt: splice.attempt ?? 1,
+    lossDb: added.lossDb,
+    attempt: added.attempt,
     respliceReason: splice.respliceReason ?? null,
     respliceNote: splice.respliceNote ?? null,
     supersedesId: splice.supersedesId ?? null,
-    acceptReason: splice.acceptReason ?? null,
+    acceptReason: added.acceptReason,
     notes: splice.notes ?? '',
     splicedAt: splice.splicedAt,
     splicerId: splice.splicerId,
@@ -318,53 +371,33 @@ export function insertSplice(
     serverSeq,
   })
 
-  // The slots after the write, worked out from what was read before it rather than read again.
-  const newRow = {
-    id: splice.id,
-    cable_a_id: splice.cableAId,
-    fiber_a: splice.fiberA,
-    cable_b_id: splice.cableBId,
-    fiber_b: splice.fiberB,
-  }
-  const before = sumSlots(views.map(judgeSlot))
-  const after = sumSlots(
-    views.map((view, i) =>
-      judgeSlot({
-        ...view,
-        current: [...view.current.filter((row) => row.id !== old?.id), ...(i === 0 ? [newRow] : [])],
-      }),
-    ),
-  )
-  const { overTarget, overMaximum } = thresholds(limits)
-  const lossPart = (loss: number | null | undefined, sign: 1 | -1) =>
-    loss == null
-      ? { count: 0, sum: 0, target: 0, maximum: 0 }
-      : {
-          count: sign,
-          sum: sign * loss,
-          target: loss > overTarget ? sign : 0,
-          maximum: loss > overMaximum ? sign : 0,
-        }
-  const gained = lossPart(lossDb, 1)
-  const lost = lossPart(counted?.loss_db, -1)
+  const gained = lossPart(added, limits)
+  const lost = removed
+    ? lossPart(removed, limits)
+    : { count: 0, milli: 0, overTarget: 0, overMaximum: 0, worst: null }
   const changed = st.addToTotals.run({
-    closureId: splice.closureId,
-    logged: after.logged - before.logged,
-    offPlan: after.offPlan - before.offPlan,
-    mismatches: after.mismatches - before.mismatches,
-    lossCount: gained.count + lost.count,
-    lossSum: gained.sum + lost.sum,
-    overTarget: gained.target + lost.target,
-    overMaximum: gained.maximum + lost.maximum,
-    resplices: counted ? 1 : 0,
+    closureId,
+    logged,
+    offPlan,
+    mismatches,
+    lossCount: gained.count - lost.count,
+    lossMilli: gained.milli - lost.milli,
+    overTarget: gained.overTarget - lost.overTarget,
+    overMaximum: gained.overMaximum - lost.overMaximum,
+    resplices: removed ? 1 : 0,
+    // A photo link may arrive before its splice (no foreign key), so the new splice may already have one.
     photos: (st.hasPhoto.get(splice.id)?.has === 1 ? 1 : 0) - (oldHadPhoto ? 1 : 0),
-    newLoss: lossDb,
-    oldLoss: counted?.loss_db ?? null,
+    newLoss: gained.worst,
+    oldLoss: lost.worst,
     createdAt,
   }).changes
   // No totals row yet (the trigger makes one with every closure, so only in odd set-ups): build it from rows.
-  if (changed === 0) recomputeClosureTotals(sqlite, splice.closureId, limits)
-  return { supersededId: old?.id ?? null, supersededWasCurrent: old?.is_current === 1 }
+  if (changed === 0) recomputeClosureTotals(sqlite, closureId, limits)
+  return { supersededId: old?.id ?? null, supersededWasCurrent: old?.isCurrent === 1 }
+}
+
+function pairOf(pair: FiberPair): FiberPair {
+  return { cableAId: pair.cableAId, fiberA: pair.fiberA, cableBId: pair.cableBId, fiberB: pair.fiberB }
 }
 
 /** Adds a photo link; a first photo on a current splice counts in its closure's totals at once. */
@@ -387,12 +420,17 @@ export function insertPhotoLink(conn: Conn, link: PhotoLinkInput, options: { ser
 
 /** Rebuilds one closure's totals from its rows (after plan, limit, edit or tombstone changes). */
 export function recomputeClosureTotals(conn: Conn, closureId: string, limits: ProjectLimits): void {
-  statements(rawSqlite(conn)).recomputeClosure.run({ scopeId: closureId, ...thresholds(limits) })
+  statements(rawSqlite(conn)).recomputeClosure.run({ closureId, ...thresholds(limits) })
 }
 
 /** Rebuilds the totals of every closure in a project from rows (after a change of the project's limits). */
 export function recomputeProjectTotals(conn: Conn, projectId: string, limits: ProjectLimits): void {
-  statements(rawSqlite(conn)).recomputeProject.run({ scopeId: projectId, ...thresholds(limits) })
+  const st = statements(rawSqlite(conn))
+  const params = thresholds(limits)
+  // Closure by closure: matching pairs sorts the plan rows and splices by pair, which stays small and in
+  // memory per closure; one statement over the project sorts them all at once and was twice as slow at 1M.
+  for (const { id } of st.projectClosures.all(projectId))
+    st.recomputeClosure.run({ closureId: id, ...params })
 }
 
 /** The project's loss limits as stored, or undefined for an unknown project. */

@@ -132,23 +132,20 @@ function modelTotals(closureId: string): Row {
       x.fiber_b === y.fiber_a)
   const current = all.filter((s) => s.is_current === 1)
   const rowAt = (s: Row) => plan.find((p) => p.tray_id === s.tray_id && p.slot === s.slot)
+  // Pairs count wherever they sit in the closure; slots only decide mismatches (shared rollUpClosure).
   const losses = current.map((s) => s.loss_db).filter((l): l is number => l !== null)
+  const milli = losses.map((l) => Math.round(l * 1000))
   return {
     planned: plan.length,
-    logged: plan.filter((p) =>
-      current.some((s) => s.tray_id === p.tray_id && s.slot === p.slot && same(s, p)),
-    ).length,
-    off_plan: current.filter((s) => {
+    logged: plan.filter((p) => current.some((s) => same(s, p))).length,
+    off_plan: current.filter((s) => !plan.some((p) => same(s, p))).length,
+    mismatches: current.filter((s) => {
       const p = rowAt(s)
       return !p || !same(s, p)
     }).length,
-    mismatches: current.filter((s) => {
-      const p = rowAt(s)
-      return p !== undefined && !same(s, p)
-    }).length,
     loss_count: losses.length,
-    loss_sum: Math.round(losses.reduce((a, b) => a + b, 0) * 1e6) / 1e6,
-    loss_max: losses.length ? Math.max(...losses) : null,
+    loss_sum: milli.reduce((a, b) => a + b, 0) / 1000,
+    loss_max: milli.length ? Math.max(...milli) / 1000 : null,
     over_target: losses.filter((l) => l > 0.1 + 5e-4).length,
     over_maximum: losses.filter((l) => l > 0.3 + 5e-4).length,
     resplices: all.length - current.length,
@@ -323,7 +320,7 @@ describe('closure totals kept by insertSplice', () => {
         serverSeq,
         limits: testLimits,
       })
-      // Slot 6 of tray 2 has no plan row: off the plan, but not a wrong pair.
+      // Slot 6 of tray 2 has no plan row, and the pair is planned nowhere: off the plan and a mismatch too.
       insertSplice(
         database.sqlite,
         spliceFor(fixture, { trayId: t2, slot: 6 }, { ...planned, fiberA: 24, fiberB: 24 }),
@@ -334,7 +331,7 @@ describe('closure totals kept by insertSplice', () => {
       planned: 10,
       logged: 0,
       offPlan: 2,
-      mismatches: 1,
+      mismatches: 2,
     })
   })
 
