@@ -114,6 +114,9 @@ export const planRows = sqliteTable(
       .on(t.trayId, t.slot)
       .where(sql`${t.deleted} = 0`),
     index('plan_rows_closure').on(t.closureId),
+    index('plan_rows_live_pair')
+      .on(t.closureId, t.cableAId, t.fiberA, t.cableBId, t.fiberB)
+      .where(sql`${t.deleted} = 0`),
     index('plan_rows_server_seq').on(t.serverSeq),
   ],
 )

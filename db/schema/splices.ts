@@ -58,6 +58,11 @@ export const splices = sqliteTable(
     index('splices_server_seq').on(t.serverSeq),
     // Lets a roll-up find a closure's worst current splice without reading its rows, e.g. after the
     // worst one is re-spliced.
+    // Finds the current splices joining a fiber pair (either orientation is a second lookup), which the
+    // maintained totals need on every write.
+    index('splices_current_pair')
+      .on(t.closureId, t.cableAId, t.fiberA, t.cableBId, t.fiberB)
+      .where(sql`${t.isCurrent} = 1 AND ${t.deleted} = 0`),
     index('splices_current_loss')
       .on(t.closureId, t.lossDb)
       .where(sql`${t.isCurrent} = 1 AND ${t.deleted} = 0`),

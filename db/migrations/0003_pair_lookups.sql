@@ -1,0 +1,2 @@
+CREATE INDEX `plan_rows_live_pair` ON `plan_rows` (`closure_id`,`cable_a_id`,`fiber_a`,`cable_b_id`,`fiber_b`) WHERE "plan_rows"."deleted" = 0;--> statement-breakpoint
+CREATE INDEX `splices_current_pair` ON `splices` (`closure_id`,`cable_a_id`,`fiber_a`,`cable_b_id`,`fiber_b`) WHERE "splices"."is_current" = 1 AND "splices"."deleted" = 0;
