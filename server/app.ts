@@ -9,11 +9,18 @@ import { peopleRouter } from './routes/people'
 import { projectsRouter } from './routes/projects'
 import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
+import { photosRouter } from './routes/photos'
+import { syncRouter } from './routes/sync'
+import { createLocalDiskStorage } from './storage/index'
 import { serveApp } from './static'
 
 /** Builds the Express app around a context; never listens, so tests can drive it directly. */
 export function createApp(deps: AppDeps): Express {
-  const ctx: AppContext = { ...deps, registeredRoutes: new Set() }
+  const ctx: AppContext = {
+    ...deps,
+    storage: deps.storage ?? createLocalDiskStorage(deps.config.photoDir),
+    registeredRoutes: new Set(),
+  }
   const app = express()
   app.locals.ctx = ctx
   app.disable('x-powered-by')
@@ -52,6 +59,8 @@ export function createApp(deps: AppDeps): Express {
   api.use(closuresRouter(ctx))
   api.use(splicesRouter(ctx))
   api.use(peopleRouter(ctx))
+  api.use(syncRouter(ctx))
+  api.use(photosRouter(ctx))
   api.use(apiNotFound)
   app.use('/api', api)
 

@@ -17,7 +17,23 @@ const envSchema = z.object({
   LIGHTSEAM_BCRYPT_COST: z.coerce.number().int().min(4).max(15).default(11),
   LIGHTSEAM_TRUST_PROXY: z.coerce.number().int().min(0).max(10).default(0),
   LIGHTSEAM_STATIC_DIR: z.string().min(1).default('dist'),
+  LIGHTSEAM_PHOTO_DIR: z.string().min(1).optional(),
+  LIGHTSEAM_PHOTO_MAX_BYTES: z.coerce
+    .number()
+    .int()
+    .min(1024)
+    .max(100 * 1024 * 1024)
+    .default(15 * 1024 * 1024),
+  LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION: z.coerce.number().int().min(1).optional(),
 })
+
+/** Hooks the sync tests use to make the push fail or stop at a chosen point; inert unless set. */
+export interface SyncTestHooks {
+  /** After handling mutation k (1-based) of a batch, print a marker line and block the process (kill test). */
+  pauseAfterMutation: number | null
+  /** Runs inside each mutation's savepoint before it is applied; a throw there is the apply failing. */
+  beforeApply?: (mutation: { seq: number; name: string }, index: number) => void
+}
 
 export interface Config {
   env: 'development' | 'production' | 'test'
@@ -35,6 +51,12 @@ export interface Config {
   trustProxyHops: number
   /** Failed sign-ins allowed per account, and sign-in attempts per address, in each window. */
   signInLimits: { windowMs: number; perAccount: number; perAddress: number }
+  /** Where the local-disk photo store keeps its files (sharded by hash prefix). */
+  photoDir: string
+  /** The largest photo upload accepted, in bytes. */
+  photoMaxBytes: number
+  /** Inert in production: the env hook is refused unless NODE_ENV=test; tests may set beforeApply. */
+  syncTestHooks: SyncTestHooks
 }
 
 export class ConfigError extends Error {
@@ -62,6 +84,10 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     throw new ConfigError(`Lightseam cannot start: the environment has bad settings:\n${lines.join('\n')}`)
   }
   const e = parsed.data
+  // A hook that blocks the server must never be reachable outside the test environment.
+  if (e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION !== undefined && e.NODE_ENV !== 'test') {
+    throw new ConfigError('Lightseam cannot start: LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION needs NODE_ENV=test.')
+  }
   const dataDir = resolve(overrides.dataDir ?? e.LIGHTSEAM_DATA_DIR)
   return {
     env: e.NODE_ENV,
@@ -78,6 +104,9 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     bcryptCost: e.LIGHTSEAM_BCRYPT_COST,
     trustProxyHops: e.LIGHTSEAM_TRUST_PROXY,
     signInLimits: { windowMs: 15 * 60_000, perAccount: 5, perAddress: 30 },
+    photoDir: resolve(e.LIGHTSEAM_PHOTO_DIR ?? resolve(dataDir, 'photos')),
+    photoMaxBytes: e.LIGHTSEAM_PHOTO_MAX_BYTES,
+    syncTestHooks: { pauseAfterMutation: e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION ?? null },
     ...overrides,
   }
 }

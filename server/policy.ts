@@ -18,6 +18,8 @@ const everyone = ['splicer', 'foreman', 'office', 'inspector'] as const
 const leads = ['foreman', 'office'] as const
 const office = ['office'] as const
 const reviewers = ['foreman', 'office', 'inspector'] as const
+// Everyone who records work; the inspector only reads.
+const writers = ['splicer', 'foreman', 'office'] as const
 
 export const policy = {
   'GET /api/health': { roles: 'public', scope: 'none' },
@@ -60,6 +62,17 @@ export const policy = {
   'GET /api/projects/:projectId/board': { roles: reviewers, scope: 'closure' },
   'GET /api/projects/:projectId/production': { roles: leads, scope: 'closure' },
   'GET /api/audit': { roles: reviewers, scope: 'closure' },
+
+  // Each pushed mutation is authorized again when it is applied (role, crew, closure, author).
+  'POST /api/sync/push': { roles: writers, scope: 'closure' },
+  'GET /api/sync/pull': { roles: everyone, scope: 'closure' },
+  'GET /api/sync/rejected': { roles: writers, scope: 'closure' },
+  'POST /api/sync/rejected/:rejectedId/reapply': { roles: leads, scope: 'closure' },
+
+  // Photos are read by whoever may read a record linked to them; HEAD also tells the uploader it is stored.
+  'HEAD /api/photos/:sha256': { roles: everyone, scope: 'closure' },
+  'GET /api/photos/:sha256': { roles: everyone, scope: 'closure' },
+  'PUT /api/photos/:sha256': { roles: writers, scope: 'none' },
 
   'GET /api/users': { roles: office, scope: 'none' },
   'POST /api/users': { roles: office, scope: 'none' },

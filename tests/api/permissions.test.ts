@@ -1,7 +1,9 @@
 import request from 'supertest'
+import { v7 as uuidv7 } from 'uuid'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { policy, type RouteKey, type Rule } from '../../server/policy'
 import { makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
+import { jpegBytes, sha256, upload } from './support/photos'
 
 // Every route × every actor, read from the one policy table. Scope on top of roles: splicer and
 // foreman reach their own crew's closures, the inspector only signed-off ones, the office all;
@@ -18,13 +20,17 @@ interface Ids {
   spliceId: string
   userId: string
   crewId: string
+  /** A stored photo linked to the closure. */
+  photo: string
+  /** A quarantined mutation about the closure, already resolved (re-applying it is refused, writing nothing). */
+  rejectedId: number
 }
 interface Recipe {
   path: (ids: Ids) => string
   /** Whether the record behind the path belongs to a closure (and so follows closure scope). */
   closureBound: boolean
   /** The body of a write: invalid on purpose, so an allowed caller gets 400 and nothing is written. */
-  body?: { type: 'json' | 'csv'; value: string | object }
+  body?: { type: 'json' | 'csv' | 'jpeg'; value: string | object | Buffer }
   /** Status an allowed caller gets (200 for reads, 400 for the invalid writes, 204 for delete). */
   allowed: number
 }
@@ -87,6 +93,24 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
     (i) => `/api/projects/${i.projectId}/production?from=2025-06-10`,
   ),
   'GET /api/audit': read((i) => `/api/audit?entity=closure&entityId=${i.closureId}`, true),
+  'POST /api/sync/push': write(() => '/api/sync/push'),
+  'GET /api/sync/pull': read(() => '/api/sync/pull'),
+  'GET /api/sync/rejected': read(() => '/api/sync/rejected'),
+  'POST /api/sync/rejected/:rejectedId/reapply': {
+    path: (i) => `/api/sync/rejected/${i.rejectedId}/reapply`,
+    closureBound: true,
+    body: { type: 'json', value: {} },
+    allowed: 409,
+  },
+  'HEAD /api/photos/:sha256': read((i) => `/api/photos/${i.photo}`, true),
+  'GET /api/photos/:sha256': read((i) => `/api/photos/${i.photo}`, true),
+  // JPEG bytes that do not hash to the address: an allowed caller gets 422 and nothing is stored.
+  'PUT /api/photos/:sha256': {
+    path: () => `/api/photos/${'0'.repeat(64)}`,
+    closureBound: false,
+    body: { type: 'jpeg', value: jpegBytes(64, 64, 16) },
+    allowed: 422,
+  },
   'GET /api/users': read(() => '/api/users'),
   'POST /api/users': write(() => '/api/users'),
   'PATCH /api/users/:userId': write((i) => `/api/users/${i.userId}`),
@@ -122,16 +146,47 @@ function idsFor(closureLabelPrefix: string): Ids {
     spliceId: q<{ id: string }>('SELECT id FROM splices WHERE closure_id = ? LIMIT 1', closure.id).id,
     userId: q<{ id: string }>("SELECT id FROM users WHERE role = 'inspector'").id,
     crewId: closure.crew_id,
+    photo: '',
+    rejectedId: 0,
   }
 }
 
-beforeAll(() => {
+/** A photo linked to the target's closure and a resolved quarantined mutation about it. */
+async function addSyncRecords(target: Ids): Promise<void> {
+  const sqlite = t.database.sqlite
+  const bytes = jpegBytes()
+  expect((await upload(t, 'office', bytes)).status).toBe(201)
+  target.photo = sha256(bytes)
+  const office = sqlite.prepare("SELECT id FROM users WHERE role = 'office'").pluck().get() as string
+  const at = new Date().toISOString()
+  sqlite
+    .prepare(
+      `INSERT INTO photo_links (id, sha256, entity, entity_id, added_by, created_at) VALUES (?, ?, 'closure', ?, ?, ?)`,
+    )
+    .run(uuidv7(), target.photo, target.closureId, office, at)
+  const client = uuidv7()
+  sqlite
+    .prepare('INSERT INTO sync_clients (client_id, user_id, created_at, last_seen_at) VALUES (?, ?, ?, ?)')
+    .run(client, office, at, at)
+  const args = { id: uuidv7(), entity: 'closure', entityId: target.closureId, body: 'Resolved already.' }
+  target.rejectedId = Number(
+    sqlite
+      .prepare(
+        `INSERT INTO rejected_mutations (client_id, seq, user_id, name, args, code, message, at, resolved_at)
+         VALUES (?, 1, ?, 'addNote', ?, 'closure_locked', 'Signed off.', ?, ?)`,
+      )
+      .run(client, office, JSON.stringify(args), at, at).lastInsertRowid,
+  )
+}
+
+beforeAll(async () => {
   t = makeTestApp()
   ids = {
     own: idsFor('VLT-01'), // crew 1, not signed off
     signedOff: idsFor('BLD-04'), // crew 1, signed off
     otherCrew: idsFor('OTH-06'), // crew 2
   }
+  for (const target of Object.values(ids)) await addSyncRecords(target)
 })
 afterAll(() => t.close())
 
@@ -139,14 +194,23 @@ function roleOf(who: DemoWho): string {
   return who.replace(/2$/, '')
 }
 
+function methodOf(key: string) {
+  return key.split(' ')[0]!.toLowerCase() as 'get' | 'post' | 'put' | 'patch' | 'delete' | 'head'
+}
+
+/** HEAD answers carry no body, so only their status can be checked. */
+const hasBody = (key: string) => methodOf(key) !== 'head'
+
 function send(recipe: Recipe, target: Target, auth?: string) {
   const path = recipe.path(ids[target])
   const key = Object.entries(recipes).find(([, r]) => r === recipe)![0]
-  const method = key.split(' ')[0]!.toLowerCase() as 'get' | 'post' | 'put' | 'patch' | 'delete'
+  const method = methodOf(key)
   let req = request(t.app)[method](path)
   if (auth) req = req.set('Authorization', auth)
   if (recipe.body?.type === 'csv')
     return req.set('Content-Type', 'text/csv').send(recipe.body.value as string)
+  if (recipe.body?.type === 'jpeg')
+    return req.set('Content-Type', 'image/jpeg').send(recipe.body.value as Buffer)
   if (recipe.body) return req.send(recipe.body.value as object)
   return req
 }
@@ -176,7 +240,7 @@ describe('permission matrix', () => {
   it.each(keys)('%s: no token → 401', async (key) => {
     const res = await send(recipes[key] as Recipe, 'own')
     expect(res.status).toBe(401)
-    expect(res.body.error.code).toBe('unauthorized')
+    if (hasBody(key)) expect(res.body.error.code).toBe('unauthorized')
   })
 
   it.each(keys)(
@@ -191,7 +255,7 @@ describe('permission matrix', () => {
           const res = await send(recipe, target, auth)
           const want = expected(rule, recipe, who, target)
           expect({ who, target, status: res.status }).toEqual({ who, target, status: want })
-          if (res.status >= 400)
+          if (res.status >= 400 && hasBody(key))
             expect(res.body.error).toMatchObject({ code: expect.any(String), message: expect.any(String) })
           if (before) expect(tableCounts(t.database)).toEqual(before)
         }

@@ -1,0 +1,24 @@
+import { Router } from 'express'
+import type { AppContext } from '../context'
+import { route } from '../http'
+import { listRejected, pushMutations, reapplyRejected } from '../services/sync'
+import { pullChanges } from '../services/syncPull'
+
+/** Push, pull and the quarantine of refused changes (SYNC.md). */
+export function syncRouter(ctx: AppContext): Router {
+  const router = Router()
+  // The body arrives parsed by the API's JSON parser, which already caps it at 1 MiB (SYNC.md).
+  route(ctx, router, 'POST /api/sync/push', (req, res) => {
+    res.json(pushMutations(ctx, res.locals.actor, req.body))
+  })
+  route(ctx, router, 'GET /api/sync/pull', (req, res) => {
+    res.json(pullChanges(ctx, res.locals.actor, req.query))
+  })
+  route(ctx, router, 'GET /api/sync/rejected', (req, res) => {
+    res.json(listRejected(ctx, res.locals.actor, req.query))
+  })
+  route(ctx, router, 'POST /api/sync/rejected/:rejectedId/reapply', (req, res) => {
+    res.json(reapplyRejected(ctx, res.locals.actor, req.params.rejectedId))
+  })
+  return router
+}

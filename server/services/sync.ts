@@ -1,0 +1,330 @@
+import { ZodError, z } from 'zod'
+import { currentServerSeq, writeTransaction, type Sqlite } from '#db/client'
+import {
+  type Mutation,
+  type MutationName,
+  type MutationResult,
+  pushBodySchema,
+  type PushResponse,
+} from '#shared/schemas/sync'
+import type { SyncTestHooks } from '../config'
+import type { AppContext } from '../context'
+import { AppError, notFound } from '../errors'
+import type { Actor } from '../middleware/auth'
+import { recordEvent } from '../repositories/syncAudit'
+import { SpliceWriteError } from '../repositories/splices'
+import {
+  advanceSyncClient,
+  bindSyncClient,
+  findRejected,
+  findSyncClient,
+  listRejectedRows,
+  quarantineMutation,
+  type RejectedRow,
+  resolveRejected,
+  storedResult,
+  storeResult,
+} from '../repositories/syncLog'
+import { closureFacts } from '../repositories/syncReads'
+import { canSeeClosure } from './access'
+import {
+  applyMutation,
+  type ApplyEnv,
+  auditTargetOf,
+  closureOfPayload,
+  refusalCodes,
+  type RefusalCode,
+} from './syncApply'
+
+/** What applied_mutations keeps: the answer as given, and the change sequence value it was applied at. */
+type StoredResult = MutationResult & { serverSeq?: number }
+
+const now = () => new Date().toISOString()
+
+// Busy, disk full, I/O and memory trouble are the server's, not the payload's: the device sends the batch again.
+const temporaryCodes = /^SQLITE_(BUSY|LOCKED|FULL|IOERR|NOMEM|PROTOCOL)/
+
+/** Tells whether an error is a temporary storage failure (the whole batch is answered 503). */
+export function isTemporaryFailure(error: unknown): boolean {
+  const code = (error as { code?: unknown } | null)?.code
+  return typeof code === 'string' && temporaryCodes.test(code)
+}
+
+function zodMessage(error: ZodError): string {
+  const issues = error.issues.slice(0, 3).map((issue) => {
+    const path = issue.path.map(String).join('.')
+    return path ? `${path}: ${issue.message}` : issue.message
+  })
+  return `The change is not valid: ${issues.join('; ')}`.slice(0, 500)
+}
+
+/** The permanent refusal an error stands for, or null when it is not the payload's fault (rethrown). */
+function refusalOf(error: unknown): { code: RefusalCode; message: string } | null {
+  if (error instanceof ZodError) return { code: 'invalid', message: zodMessage(error) }
+  if (error instanceof AppError && (refusalCodes as readonly string[]).includes(error.code))
+    return { code: error.code as RefusalCode, message: error.message }
+  if (error instanceof SpliceWriteError) {
+    return error.code === 'supersedes_unknown'
+      ? { code: 'not_found', message: 'The attempt this re-splice replaces was not found.' }
+      : { code: 'invalid', message: 'A re-splice stays in the closure of the attempt it replaces.' }
+  }
+  const code = (error as { code?: unknown } | null)?.code
+  // A constraint the checks above missed (an id reused across devices, say): the payload cannot apply as sent.
+  if (typeof code === 'string' && code.startsWith('SQLITE_CONSTRAINT'))
+    return { code: 'conflict', message: 'The change clashes with a record already stored.' }
+  return null
+}
+
+/** Blocks the process inside the open batch transaction so the kill test can SIGKILL it there. */
+function pauseForKill(hooks: SyncTestHooks, handled: number, total: number): void {
+  if (hooks.pauseAfterMutation !== handled) return
+  // A pipe write is synchronous on POSIX, so the marker is out before the wait begins.
+  process.stdout.write(`lightseam-test: paused after mutation ${handled} of ${total}\n`)
+  Atomics.wait(new Int32Array(new SharedArrayBuffer(4)), 0, 0, 10 * 60_000)
+}
+
+interface Attempt {
+  actor: Actor
+  clientId: string
+  mutation: Pick<Mutation, 'seq' | 'name' | 'args' | 'baseServerSeq' | 'clientTime'>
+  at: string
+  limits: ApplyEnv['limits']
+}
+
+/**
+ * Applies one mutation in a savepoint of the open transaction. A permanent refusal rolls the savepoint back
+ * and comes back as a `rejected` result (the caller quarantines it); anything else is rethrown.
+ */
+function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
+  const { actor, clientId, mutation, at, limits } = work
+  try {
+    return writeTransaction(ctx.database.sqlite, (serverSeq) => {
+      ctx.config.syncTestHooks.beforeApply?.(mutation, index)
+      const outcome = applyMutation(
+        {
+          conn: ctx.database.sqlite,
+          actor,
+          clientId,
+          seq: mutation.seq,
+          baseServerSeq: mutation.baseServerSeq,
+          clientTime: mutation.clientTime,
+          serverSeq,
+          at,
+          limits,
+        },
+        mutation.name,
+        mutation.args,
+      )
+      return { seq: mutation.seq, ...outcome, serverSeq }
+    })
+  } catch (error) {
+    const refusal = refusalOf(error)
+    if (!refusal) throw error
+    return { seq: mutation.seq, status: 'rejected', ...refusal }
+  }
+}
+
+function quarantine(sqlite: Sqlite, work: Attempt, result: StoredResult): void {
+  const { actor, clientId, mutation, at } = work
+  const code = result.code ?? 'rejected'
+  const message = result.message ?? ''
+  quarantineMutation(sqlite, {
+    clientId,
+    seq: mutation.seq,
+    userId: actor.id,
+    name: mutation.name,
+    args: mutation.args,
+    code,
+    message,
+    at,
+  })
+  const target = auditTargetOf(mutation.name, mutation.args) ?? {
+    entity: 'mutation',
+    entityId: `${clientId}:${mutation.seq}`,
+  }
+  recordEvent(sqlite, { userId: actor.id, clientId, mutationSeq: mutation.seq, at, ...target }, 'rejected', {
+    name: mutation.name,
+    code,
+    message,
+  })
+}
+
+/** The answer to a resent seq: the first answer again; a refusal stays a refusal so the device quarantines it. */
+function duplicateOf(stored: StoredResult | undefined, seq: number): MutationResult {
+  if (!stored) return { seq, status: 'duplicate' }
+  const { serverSeq: _serverSeq, ...result } = stored
+  return { ...result, seq, status: result.status === 'rejected' ? 'rejected' : 'duplicate' }
+}
+
+const publicResult = ({ serverSeq: _serverSeq, ...result }: StoredResult): MutationResult => result
+
+/**
+ * Applies a pushed batch in one BEGIN IMMEDIATE transaction, each mutation in a savepoint of its own, and
+ * answers for every mutation (applied, merged, duplicate, rejected or gap).
+ */
+export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): PushResponse {
+  const input = pushBodySchema.parse(body)
+  const sqlite = ctx.database.sqlite
+  const hooks = ctx.config.syncTestHooks
+  const at = now()
+  const run = sqlite.transaction((): PushResponse => {
+    const client =
+      findSyncClient(sqlite, input.clientId) ?? bindSyncClient(sqlite, input.clientId, actor.id, at)
+    if (client.userId !== actor.id) {
+      throw new AppError(
+        'client_taken',
+        'This device id belongs to another user; sign in again to sync.',
+        403,
+      )
+    }
+    let lastSeq = client.lastSeq
+    const limits: ApplyEnv['limits'] = new Map()
+    const results: MutationResult[] = []
+    for (const [index, mutation] of input.mutations.entries()) {
+      if (mutation.seq <= lastSeq) {
+        results.push(
+          duplicateOf(storedResult<StoredResult>(sqlite, input.clientId, mutation.seq), mutation.seq),
+        )
+        continue
+      }
+      if (mutation.seq > lastSeq + 1) {
+        // Nothing after a gap is applied: the device resends from the expected seq, in order.
+        const expectedSeq = lastSeq + 1
+        for (const rest of input.mutations.slice(index))
+          results.push({ seq: rest.seq, status: 'gap', expectedSeq })
+        break
+      }
+      const work: Attempt = { actor, clientId: input.clientId, mutation, at, limits }
+      const result = attempt(ctx, work, index)
+      if (result.status === 'rejected') quarantine(sqlite, work, result)
+      storeResult(sqlite, { clientId: input.clientId, seq: mutation.seq, name: mutation.name, result, at })
+      lastSeq = mutation.seq
+      results.push(publicResult(result))
+      pauseForKill(hooks, index + 1, input.mutations.length)
+    }
+    advanceSyncClient(sqlite, input.clientId, lastSeq, at)
+    return { results, lastSeq }
+  })
+  try {
+    return run.immediate()
+  } catch (error) {
+    if (isTemporaryFailure(error)) {
+      throw new AppError(
+        'unavailable',
+        'The server could not store the batch just now; send it again.',
+        503,
+        undefined,
+        {
+          'Retry-After': '2',
+        },
+      )
+    }
+    throw error
+  }
+}
+
+/** Query of the quarantine list: open ones by default, newest first, paginated. */
+export const rejectedQuerySchema = z
+  .object({
+    state: z.enum(['open', 'resolved', 'all']).default('open'),
+    limit: z.coerce.number().int().min(1).max(500).default(50),
+    offset: z.coerce.number().int().min(0).default(0),
+  })
+  .strict()
+
+// The quarantine is a short list worked through by hand; reading this many rows and scoping them here
+// keeps the scope rules in one place (canSeeClosure) at no real cost.
+const rejectedScanLimit = 5000
+
+/** Whether the actor may see a quarantined payload: office all, leads their crew's closures, splicers their own. */
+function seesRejected(
+  ctx: AppContext,
+  actor: Actor,
+  row: RejectedRow,
+): { visible: boolean; closureId: string | null } {
+  const closureId = closureOfPayload(ctx.database.sqlite, row.name, row.args)
+  if (actor.role === 'office') return { visible: true, closureId }
+  if (actor.role === 'splicer') return { visible: row.userId === actor.id, closureId }
+  const closure = closureId ? closureFacts(ctx.database.sqlite, closureId) : undefined
+  return { visible: closure !== undefined && canSeeClosure(actor, closure), closureId }
+}
+
+/** Quarantined mutations the actor may see, newest first. */
+export function listRejected(ctx: AppContext, actor: Actor, query: unknown) {
+  const q = rejectedQuerySchema.parse(query)
+  const open = q.state === 'all' ? null : q.state === 'open'
+  const items = listRejectedRows(ctx.database.sqlite, open, rejectedScanLimit).flatMap((row) => {
+    const { visible, closureId } = seesRejected(ctx, actor, row)
+    return visible ? [{ ...row, closureId }] : []
+  })
+  return {
+    items: items.slice(q.offset, q.offset + q.limit),
+    total: items.length,
+    limit: q.limit,
+    offset: q.offset,
+  }
+}
+
+/** Re-applies one quarantined mutation as the foreman or office user, in one transaction; resolved when it applies. */
+export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unknown) {
+  const id =
+    typeof rejectedId === 'string' && /^[1-9][0-9]{0,15}$/.test(rejectedId) ? Number(rejectedId) : NaN
+  const row = Number.isSafeInteger(id) ? findRejected(ctx.database.sqlite, id) : undefined
+  if (!row) throw notFound('The rejected change')
+  const { visible } = seesRejected(ctx, actor, row)
+  if (!visible) throw notFound('The rejected change')
+  if (row.resolvedAt !== null)
+    throw new AppError('already_resolved', 'This change has already been dealt with.', 409)
+  const sqlite = ctx.database.sqlite
+  const at = now()
+  const run = sqlite.transaction(() => {
+    const result = attempt(
+      ctx,
+      {
+        actor,
+        clientId: row.clientId,
+        // The lead decides on what the record holds now, so nothing they are shown counts as a conflict.
+        mutation: {
+          seq: row.seq,
+          name: row.name as MutationName,
+          args: row.args as Record<string, unknown>,
+          baseServerSeq: currentServerSeq(sqlite),
+          clientTime: at,
+        },
+        at,
+        limits: new Map(),
+      },
+      0,
+    )
+    if (result.status !== 'rejected') {
+      resolveRejected(sqlite, row.id, at)
+      const target = auditTargetOf(row.name, row.args) ?? {
+        entity: 'mutation',
+        entityId: `${row.clientId}:${row.seq}`,
+      }
+      recordEvent(
+        sqlite,
+        { userId: actor.id, clientId: row.clientId, mutationSeq: row.seq, at, ...target },
+        'reapplied',
+        { rejectedId: row.id, name: row.name },
+      )
+    }
+    return publicResult(result)
+  })
+  try {
+    return { rejectedId: row.id, result: run.immediate() }
+  } catch (error) {
+    if (isTemporaryFailure(error)) {
+      throw new AppError(
+        'unavailable',
+        'The server could not store this just now; try again.',
+        503,
+        undefined,
+        {
+          'Retry-After': '2',
+        },
+      )
+    }
+    throw error
+  }
+}

@@ -1,0 +1,561 @@
+import { eq } from 'drizzle-orm'
+import { v7 as uuidv7 } from 'uuid'
+import type { Conn } from '#db/client'
+import { closures, notes, photoLinks, splices } from '#db/schema/index'
+import { assessSplice } from '#shared/domain/acceptance'
+import { samePair } from '#shared/domain/plan'
+import type { Role } from '#shared/schemas/enums'
+import type { ProjectLimits } from '#shared/schemas/project'
+import type { SpliceCreate, SpliceUpdate } from '#shared/schemas/splice'
+import { mutationArgsSchemas, type MutationName, type Overwritten } from '#shared/schemas/sync'
+import { AppError } from '../errors'
+import type { Actor } from '../middleware/auth'
+import type { Change } from '../repositories/audit'
+import { recordEvent, recordFieldChanges } from '../repositories/syncAudit'
+import { dbOf, recordsOf } from '../repositories/records'
+import { insertPhotoLink, insertSplice, loadProjectLimits } from '../repositories/splices'
+import { tombstonePhotoLink, tombstoneSplice, updateSpliceFields } from '../repositories/spliceUpdates'
+import {
+  cableFacts,
+  type ClosureFacts,
+  closureFacts,
+  type FieldStamp,
+  planRowAt,
+  spliceFieldStamps,
+  spliceIdTaken,
+  spliceNeighbours,
+  trayFacts,
+  userFacts,
+} from '../repositories/syncReads'
+import { assertLeadsClosure, canSeeClosure } from './access'
+
+// The effect of each pushed mutation, run inside its own savepoint of the batch transaction. A rule broken
+// here is permanent: the mutation throws an AppError whose code becomes the rejection code, and the savepoint
+// takes every write of the mutation back.
+
+/** Codes of permanent refusals; anything else thrown while applying is not the payload's fault. */
+export const refusalCodes = ['invalid', 'forbidden', 'closure_locked', 'not_found', 'conflict'] as const
+export type RefusalCode = (typeof refusalCodes)[number]
+
+const statusOf: Record<RefusalCode, number> = {
+  invalid: 400,
+  forbidden: 403,
+  closure_locked: 409,
+  not_found: 404,
+  conflict: 409,
+}
+
+/** A permanent refusal of one mutation. */
+export function refuse(code: RefusalCode, message: string): AppError {
+  return new AppError(code, message, statusOf[code])
+}
+
+/** Who applies the mutation, from which device, and where in the change sequence. */
+export interface ApplyEnv {
+  conn: Conn
+  actor: Actor
+  clientId: string
+  /** The mutation's seq from the device, written on every audit row it causes. */
+  seq: number
+  baseServerSeq: number
+  clientTime: string
+  /** The change sequence value of this mutation's savepoint. */
+  serverSeq: number
+  /** Server time of the push. */
+  at: string
+  /** Per-batch memo of project limits (they change only through the REST API, never inside a push). */
+  limits: Map<string, ProjectLimits>
+}
+
+/** How a mutation that was not refused went: applied, or merged with some of its values overwritten. */
+export interface ApplyOutcome {
+  status: 'applied' | 'merged'
+  overwritten?: Overwritten[]
+}
+
+const closureRecords = recordsOf(closures)
+const applied: ApplyOutcome = { status: 'applied' }
+
+// A foreman's or the office's write beats a splicer's; equal ranks fall back to arrival order.
+const rank: Record<Role, number> = { splicer: 1, foreman: 2, office: 2, inspector: 0 }
+
+function change(env: ApplyEnv, entity: string, entityId: string): Change {
+  return {
+    userId: env.actor.id,
+    clientId: env.clientId,
+    mutationSeq: env.seq,
+    entity,
+    entityId,
+    at: env.at,
+  }
+}
+
+function limitsOf(env: ApplyEnv, projectId: string): ProjectLimits {
+  let limits = env.limits.get(projectId)
+  if (!limits) {
+    limits = loadProjectLimits(env.conn, projectId)
+    if (!limits) throw refuse('not_found', 'The project was not found.')
+    env.limits.set(projectId, limits)
+  }
+  return limits
+}
+
+/** The closure when it exists and the actor may see it; another crew's closure reads as missing. */
+function visibleClosure(env: ApplyEnv, closureId: string): ClosureFacts {
+  const closure = closureFacts(env.conn, closureId)
+  if (!closure || closure.deleted || !canSeeClosure(env.actor, closure))
+    throw refuse('not_found', 'The closure was not found.')
+  return closure
+}
+
+/** A signed-off closure takes no splicer changes; the foreman reopens it or re-applies the payload. */
+function assertOpenForActor(env: ApplyEnv, closure: ClosureFacts): void {
+  if (closure.state === 'signed_off' && env.actor.role === 'splicer') {
+    throw refuse(
+      'closure_locked',
+      'The closure is signed off; the foreman can reopen it or apply this change.',
+    )
+  }
+}
+
+function assertLeads(env: ApplyEnv, closure: ClosureFacts): void {
+  try {
+    assertLeadsClosure(env.actor, closure)
+  } catch {
+    throw refuse('forbidden', 'Only the foreman of this crew or the office may do this.')
+  }
+}
+
+/** A splicer records splices as themselves; a foreman or the office may record them for their crew. */
+function assertAuthor(env: ApplyEnv, closure: ClosureFacts, splicerId: string): void {
+  if (splicerId === env.actor.id) return
+  if (env.actor.role === 'splicer') throw refuse('forbidden', 'A splicer records splices as themselves only.')
+  const author = userFacts(env.conn, splicerId)
+  if (!author || !author.active) throw refuse('invalid', 'The splicer named on the splice is not a user.')
+  if (author.crewId === null || author.crewId !== closure.crewId) {
+    throw refuse('forbidden', `${author.name} is not in the crew of this closure.`)
+  }
+}
+
+type Placement = Pick<SpliceCreate, 'trayId' | 'slot' | 'cableAId' | 'fiberA' | 'cableBId' | 'fiberB'>
+
+/** The splice must fit the closure: its tray, a slot within the tray, cables of the project. */
+function assertFits(env: ApplyEnv, closure: ClosureFacts, splice: Placement): void {
+  const tray = trayFacts(env.conn, splice.trayId)
+  if (!tray || tray.deleted || tray.closureId !== closure.id)
+    throw refuse('invalid', 'The tray is not in this closure.')
+  if (splice.slot > tray.capacity)
+    throw refuse('invalid', `The tray has ${tray.capacity} slots; slot ${splice.slot} is not one of them.`)
+  for (const [cableId, fiber] of [
+    [splice.cableAId, splice.fiberA],
+    [splice.cableBId, splice.fiberB],
+  ] as const) {
+    const cable = cableFacts(env.conn, cableId)
+    if (!cable || cable.deleted || cable.projectId !== closure.projectId)
+      throw refuse('invalid', 'A cable of the splice is not in this project.')
+    if (fiber > cable.fiberCount)
+      throw refuse('invalid', `The cable has ${cable.fiberCount} fibers, not ${fiber}.`)
+  }
+  if (splice.cableAId === splice.cableBId && splice.fiberA === splice.fiberB)
+    throw refuse('invalid', 'A fiber cannot be spliced to itself.')
+}
+
+function flagsFor(
+  env: ApplyEnv,
+  closure: ClosureFacts,
+  limits: ProjectLimits,
+  splice: Parameters<typeof assessSplice>[0],
+): string[] {
+  return assessSplice(splice, limits, {
+    planRow: planRowAt(env.conn, closure.id, splice.trayId, splice.slot),
+    otherCurrentSplices: spliceNeighbours(env.conn, splice),
+    closureState: closure.state,
+  }).flags
+}
+
+function setClosure(env: ApplyEnv, before: Record<string, unknown>, id: string, patch: object): void {
+  closureRecords.update(env.conn, id, patch, env.serverSeq)
+  recordFieldChanges(env.conn, change(env, 'closure', id), before, patch as Record<string, unknown>)
+}
+
+function createSplice(env: ApplyEnv, args: unknown, name: 'createSplice' | 'resplice'): ApplyOutcome {
+  const input = mutationArgsSchemas[name].parse(args)
+  if (name === 'resplice' && input.supersedesId === null)
+    throw refuse('invalid', 'A re-splice names the attempt it replaces (supersedesId).')
+  const closure = visibleClosure(env, input.closureId)
+  assertOpenForActor(env, closure)
+  assertAuthor(env, closure, input.splicerId)
+  assertFits(env, closure, input)
+  if (spliceIdTaken(env.conn, input.id)) throw refuse('conflict', 'A splice with this id already exists.')
+  if (input.supersedesId !== null) {
+    const old = spliceRow(env.conn, input.supersedesId)
+    if (!old || old.deleted) throw refuse('not_found', 'The attempt this re-splice replaces was not found.')
+    if (old.closureId !== closure.id)
+      throw refuse('invalid', 'A re-splice stays in the closure of the attempt it replaces.')
+    if (!samePair(old, input))
+      throw refuse('invalid', 'A re-splice joins the same two fibers as the attempt it replaces.')
+    if (input.attempt <= old.attempt)
+      throw refuse('invalid', `This attempt must come after attempt ${old.attempt} it replaces.`)
+  }
+  const limits = limitsOf(env, closure.projectId)
+  insertSplice(
+    env.conn,
+    { ...input, flags: flagsFor(env, closure, limits, input), reviewState: null, createdAt: env.at },
+    { serverSeq: env.serverSeq, limits },
+  )
+  recordEvent(env.conn, change(env, 'splice', input.id), 'created', input)
+  // The first splice starts the work on a closure.
+  if (closure.state === 'planned')
+    setClosure(env, { state: closure.state }, closure.id, { state: 'in_progress' })
+  return applied
+}
+
+function spliceRow(conn: Conn, id: string) {
+  return dbOf(conn).select().from(splices).where(eq(splices.id, id)).get()
+}
+
+type EditableField = keyof SpliceUpdate
+
+/** Splice fields whose change moves the splice in its closure (and so must still fit it). */
+const placementFields = new Set<string>(['trayId', 'slot', 'cableAId', 'fiberA', 'cableBId', 'fiberB'])
+
+/** A value that lost a conflict, and whose it was: it goes to the audit trail as `conflict_lost`. */
+interface LostValue {
+  field: EditableField
+  kept: unknown
+  lost: unknown
+  by: Change
+}
+
+function updateSplice(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const { id, fields } = mutationArgsSchemas.updateSplice.parse(args)
+  const splice = spliceRow(env.conn, id)
+  if (!splice || splice.deleted) throw refuse('not_found', 'The splice was not found.')
+  const closure = visibleClosure(env, splice.closureId)
+  assertOpenForActor(env, closure)
+  if (env.actor.role === 'splicer' && splice.splicerId !== env.actor.id)
+    throw refuse('forbidden', 'A splicer edits their own splices only.')
+
+  // A field conflicts when an accepted change of it is newer than the device's base. The row's server_seq
+  // bounds every field's, so an edit from an up-to-date device needs no stamps at all.
+  const stamps =
+    splice.serverSeq > env.baseServerSeq ? spliceFieldStamps(env.conn, id) : new Map<string, FieldStamp>()
+  const current = splice as unknown as Record<EditableField, unknown>
+  const patch: Partial<Record<EditableField, unknown>> = {}
+  const won = new Set<EditableField>()
+  const lost: LostValue[] = []
+  const overwritten: Overwritten[] = []
+  for (const [field, value] of Object.entries(fields) as [EditableField, unknown][]) {
+    if (JSON.stringify(value) === JSON.stringify(current[field])) continue
+    const stamp = stamps.get(field)
+    // A change made outside push cannot be dated more finely than the row's own server_seq: assume that.
+    const changedAt = stamp ? (stamp.serverSeq ?? splice.serverSeq) : 0
+    // A device editing on top of its own earlier accepted edit is not in conflict with itself.
+    if (!stamp || changedAt <= env.baseServerSeq || stamp.clientId === env.clientId) {
+      patch[field] = value
+      continue
+    }
+    if (rank[env.actor.role] >= rank[stamp.role ?? 'splicer']) {
+      patch[field] = value
+      won.add(field)
+      lost.push({
+        field,
+        kept: value,
+        lost: current[field],
+        by: {
+          ...change(env, 'splice', id),
+          userId: stamp.userId,
+          clientId: stamp.clientId,
+          mutationSeq: stamp.mutationSeq,
+        },
+      })
+    } else {
+      lost.push({ field, kept: current[field], lost: value, by: change(env, 'splice', id) })
+      overwritten.push({
+        field,
+        yours: value,
+        kept: current[field],
+        byUserId: stamp.userId,
+        byName: stamp.userName,
+      })
+    }
+  }
+
+  const ref = change(env, 'splice', id)
+  // conflict_lost rows read: old_value is the value kept, new_value the one that lost, user_id its author.
+  for (const entry of lost)
+    recordFieldChanges(
+      env.conn,
+      entry.by,
+      { [entry.field]: entry.kept },
+      { [entry.field]: entry.lost },
+      'conflict_lost',
+    )
+  const changed = Object.keys(patch).length > 0
+  // A conflict, or a splicer changing a reviewed splice, sends the splice back to the review queue.
+  const resetReview =
+    splice.reviewState !== null && (lost.length > 0 || (changed && env.actor.role === 'splicer'))
+  if (changed || resetReview) {
+    const next = { ...splice, ...patch } as typeof splice
+    if (Object.keys(patch).some((field) => placementFields.has(field))) assertFits(env, closure, next)
+    if (next.supersedesId !== null && next.respliceReason === null)
+      throw refuse('invalid', 'A re-splice keeps the reason it was made again.')
+    const limits = limitsOf(env, closure.projectId)
+    updateSpliceFields(
+      env.conn,
+      splice,
+      {
+        ...(patch as SpliceUpdate),
+        flags: flagsFor(env, closure, limits, next),
+        ...(resetReview ? { reviewState: null } : {}),
+      },
+      { serverSeq: env.serverSeq, limits },
+    )
+    const plain = Object.entries(patch).filter(([field]) => !won.has(field as EditableField))
+    recordFieldChanges(env.conn, ref, current, Object.fromEntries(plain), 'applied')
+    const merged = Object.entries(patch).filter(([field]) => won.has(field as EditableField))
+    recordFieldChanges(env.conn, ref, current, Object.fromEntries(merged), 'merged')
+    if (resetReview) recordFieldChanges(env.conn, ref, current, { reviewState: null })
+  }
+  return overwritten.length > 0 ? { status: 'merged', overwritten } : applied
+}
+
+function deleteSplice(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const { id } = mutationArgsSchemas.deleteSplice.parse(args)
+  const splice = spliceRow(env.conn, id)
+  if (!splice || splice.deleted) throw refuse('not_found', 'The splice was not found.')
+  const closure = visibleClosure(env, splice.closureId)
+  if (closure.state === 'signed_off')
+    throw refuse('closure_locked', 'The closure is signed off; reopen it before removing a splice.')
+  if (env.actor.role === 'splicer' && splice.splicerId !== env.actor.id)
+    throw refuse('forbidden', 'A splicer removes their own splices only.')
+  if (splice.reviewState !== null)
+    throw refuse('conflict', 'The splice has been reviewed; it stays on record.')
+  if (!splice.isCurrent)
+    throw refuse('conflict', 'A later attempt replaces this splice; remove that one first.')
+  tombstoneSplice(env.conn, splice, { serverSeq: env.serverSeq, limits: limitsOf(env, closure.projectId) })
+  recordEvent(env.conn, change(env, 'splice', id), 'deleted')
+  return applied
+}
+
+/** The closure a photo or note target belongs to, when the target is live. */
+function closureOfTarget(
+  env: ApplyEnv,
+  entity: 'splice' | 'tray' | 'closure',
+  entityId: string,
+): ClosureFacts {
+  let closureId: string | undefined = entityId
+  if (entity === 'splice') {
+    const splice = spliceRow(env.conn, entityId)
+    closureId = splice && !splice.deleted ? splice.closureId : undefined
+  } else if (entity === 'tray') {
+    const tray = trayFacts(env.conn, entityId)
+    closureId = tray && !tray.deleted ? tray.closureId : undefined
+  }
+  if (!closureId) throw refuse('not_found', `The ${entity} was not found.`)
+  return visibleClosure(env, closureId)
+}
+
+function addPhotoLink(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const input = mutationArgsSchemas.addPhotoLink.parse(args)
+  const closure = closureOfTarget(env, input.entity, input.entityId)
+  assertOpenForActor(env, closure)
+  const existing = dbOf(env.conn).select().from(photoLinks).where(eq(photoLinks.id, input.id)).get()
+  if (existing) {
+    const same =
+      existing.sha256 === input.sha256 &&
+      existing.entity === input.entity &&
+      existing.entityId === input.entityId
+    if (same && !existing.deleted) return applied
+    throw refuse('conflict', 'A photo link with this id already exists.')
+  }
+  // No check that the photo is stored: push never waits for uploads, the link shows as missing until then.
+  insertPhotoLink(
+    env.conn,
+    { ...input, addedBy: env.actor.id, createdAt: env.at },
+    { serverSeq: env.serverSeq },
+  )
+  recordEvent(env.conn, change(env, 'photo_link', input.id), 'created', input)
+  return applied
+}
+
+function removePhotoLink(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const { id } = mutationArgsSchemas.removePhotoLink.parse(args)
+  const link = dbOf(env.conn).select().from(photoLinks).where(eq(photoLinks.id, id)).get()
+  if (!link) throw refuse('not_found', 'The photo link was not found.')
+  const closure = closureOfLink(env, link)
+  assertOpenForActor(env, closure)
+  if (env.actor.role === 'splicer' && link.addedBy !== env.actor.id)
+    throw refuse('forbidden', 'A splicer removes the photos they added only.')
+  // Removing from an add-only set twice leaves the same set.
+  if (link.deleted) return applied
+  tombstonePhotoLink(env.conn, link, closure.id, {
+    serverSeq: env.serverSeq,
+    limits: limitsOf(env, closure.projectId),
+  })
+  recordEvent(env.conn, change(env, 'photo_link', id), 'deleted')
+  return applied
+}
+
+function closureOfLink(env: ApplyEnv, link: typeof photoLinks.$inferSelect): ClosureFacts {
+  // The link's splice may be gone (tombstoned) while the link is removed; its closure still decides.
+  if (link.entity === 'splice') {
+    const splice = spliceRow(env.conn, link.entityId)
+    if (!splice) throw refuse('not_found', 'The photo link was not found.')
+    return visibleClosure(env, splice.closureId)
+  }
+  return closureOfTarget(env, link.entity, link.entityId)
+}
+
+function addNote(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const input = mutationArgsSchemas.addNote.parse(args)
+  const closure = closureOfTarget(env, input.entity, input.entityId)
+  assertOpenForActor(env, closure)
+  const db = dbOf(env.conn)
+  const existing = db.select().from(notes).where(eq(notes.id, input.id)).get()
+  if (existing) {
+    const same =
+      existing.entity === input.entity && existing.entityId === input.entityId && existing.body === input.body
+    if (same && existing.authorId === env.actor.id) return applied
+    throw refuse('conflict', 'A note with this id already exists.')
+  }
+  insertNote(env, { ...input, authorId: env.actor.id })
+  return applied
+}
+
+function insertNote(
+  env: ApplyEnv,
+  note: { id: string; entity: 'closure' | 'splice'; entityId: string; authorId: string; body: string },
+): void {
+  dbOf(env.conn)
+    .insert(notes)
+    .values({ ...note, createdAt: env.at, serverSeq: env.serverSeq })
+    .run()
+  recordEvent(env.conn, change(env, 'note', note.id), 'created', {
+    entity: note.entity,
+    entityId: note.entityId,
+  })
+}
+
+function setClosurePosition(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const input = mutationArgsSchemas.setClosurePosition.parse(args)
+  const closure = visibleClosure(env, input.closureId)
+  assertOpenForActor(env, closure)
+  const before = closureRecords.get(env.conn, closure.id)!
+  const patch = {
+    lat: input.lat,
+    lon: input.lon,
+    ...(input.routePositionM === undefined ? {} : { routePositionM: input.routePositionM }),
+  }
+  setClosure(env, before, closure.id, patch)
+  return applied
+}
+
+function signOffClosure(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const input = mutationArgsSchemas.signOffClosure.parse(args)
+  const closure = visibleClosure(env, input.closureId)
+  assertLeads(env, closure)
+  // Two leads signing off the same closure mean the same thing; the first sign-off stands.
+  if (closure.state === 'signed_off') return applied
+  const before = closureRecords.get(env.conn, closure.id)!
+  setClosure(env, before, closure.id, {
+    state: 'signed_off',
+    signedOffBy: env.actor.id,
+    signedOffAt: env.clientTime,
+  })
+  if (input.note.trim() !== '')
+    insertNote(env, {
+      id: uuidv7(),
+      entity: 'closure',
+      entityId: closure.id,
+      authorId: env.actor.id,
+      body: input.note,
+    })
+  return applied
+}
+
+function reopenClosure(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const input = mutationArgsSchemas.reopenClosure.parse(args)
+  const closure = visibleClosure(env, input.closureId)
+  assertLeads(env, closure)
+  if (closure.state === 'reopened') return applied
+  if (closure.state !== 'signed_off') throw refuse('conflict', 'Only a signed-off closure can be reopened.')
+  const before = closureRecords.get(env.conn, closure.id)!
+  setClosure(env, before, closure.id, { state: 'reopened' })
+  // The reason is for the crew as much as for the record: it goes on the closure as a note.
+  insertNote(env, {
+    id: uuidv7(),
+    entity: 'closure',
+    entityId: closure.id,
+    authorId: env.actor.id,
+    body: `Reopened: ${input.reason}`,
+  })
+  return applied
+}
+
+const appliers: Record<MutationName, (env: ApplyEnv, args: unknown) => ApplyOutcome> = {
+  createSplice: (env, args) => createSplice(env, args, 'createSplice'),
+  resplice: (env, args) => createSplice(env, args, 'resplice'),
+  updateSplice,
+  deleteSplice,
+  addPhotoLink,
+  removePhotoLink,
+  addNote,
+  setClosurePosition,
+  signOffClosure,
+  reopenClosure,
+}
+
+/** Applies one mutation as `env.actor`; throws an AppError with a refusal code when it must be refused. */
+export function applyMutation(env: ApplyEnv, name: MutationName, args: unknown): ApplyOutcome {
+  return appliers[name](env, args)
+}
+
+/** The closure a (possibly malformed) mutation payload is about, for scoping the quarantine; null when unknown. */
+export function closureOfPayload(conn: Conn, name: string, args: unknown): string | null {
+  const a = (args ?? {}) as Record<string, unknown>
+  const str = (value: unknown) => (typeof value === 'string' ? value : null)
+  const ofSplice = (id: string | null) =>
+    id
+      ? (dbOf(conn).select({ c: splices.closureId }).from(splices).where(eq(splices.id, id)).get()?.c ?? null)
+      : null
+  const ofTarget = (entity: unknown, entityId: string | null): string | null => {
+    if (!entityId) return null
+    if (entity === 'closure') return entityId
+    if (entity === 'splice') return ofSplice(entityId)
+    if (entity === 'tray') return trayFacts(conn, entityId)?.closureId ?? null
+    return null
+  }
+  switch (name) {
+    case 'createSplice':
+    case 'resplice':
+    case 'setClosurePosition':
+    case 'signOffClosure':
+    case 'reopenClosure':
+      return str(a.closureId)
+    case 'updateSplice':
+    case 'deleteSplice':
+      return ofSplice(str(a.id))
+    case 'addPhotoLink':
+    case 'addNote':
+      return ofTarget(a.entity, str(a.entityId))
+    case 'removePhotoLink': {
+      const id = str(a.id)
+      const link = id ? dbOf(conn).select().from(photoLinks).where(eq(photoLinks.id, id)).get() : undefined
+      return link ? ofTarget(link.entity, link.entityId) : null
+    }
+    default:
+      return null
+  }
+}
+
+/** The audit entity and id a mutation payload names, for the audit row of its rejection. */
+export function auditTargetOf(name: string, args: unknown): { entity: string; entityId: string } | null {
+  const a = (args ?? {}) as Record<string, unknown>
+  const pick = (entity: string, value: unknown) =>
+    typeof value === 'string' && value.length <= 64 ? { entity, entityId: value } : null
+  if (['createSplice', 'resplice', 'updateSplice', 'deleteSplice'].includes(name)) return pick('splice', a.id)
+  if (name === 'addPhotoLink' || name === 'removePhotoLink') return pick('photo_link', a.id)
+  if (name === 'addNote') return pick('note', a.id)
+  return pick('closure', a.closureId)
+}

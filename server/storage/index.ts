@@ -1,0 +1,21 @@
+import type { Readable } from 'node:stream'
+
+/**
+ * Where photo bytes live, behind the routes and services: the embedded default is the local disk; an object
+ * store only has to implement these five members. Keys are what the driver hands back from `put` and the
+ * photos table keeps in storage_key.
+ */
+export interface PhotoStorage {
+  /** A folder for uploads in flight, on the same file system as the store so `put` can rename atomically. */
+  readonly tempDir: string
+  /** Whether bytes are stored under `key`. */
+  has(key: string): Promise<boolean>
+  /** Moves a finished, verified temp file into the store under its hash; returns the storage key. */
+  put(sha256: string, tempFile: string): Promise<string>
+  /** The stored bytes as a stream (rejects when the key is not stored). */
+  read(key: string): Promise<Readable>
+  /** Deletes the bytes under `key`; removing what is not there is not an error. */
+  remove(key: string): Promise<void>
+}
+
+export { createLocalDiskStorage } from './localDisk'

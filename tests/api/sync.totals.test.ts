@@ -1,0 +1,156 @@
+import fc from 'fast-check'
+import { v7 as uuidv7 } from 'uuid'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import type { ProjectLimits } from '#shared/schemas/project'
+import { recomputeClosureTotals } from '../../server/repositories/splices'
+import { makeTestApp, type TestApp } from './support/app'
+import {
+  mutation,
+  newClientId,
+  plannedSlot,
+  pushOk,
+  spliceArgs,
+  userId,
+  type PlannedSlot,
+} from './support/sync'
+
+// closure_totals is kept incrementally by insertSplice and rebuilt by the sync writes that can move several
+// totals at once. Whatever a crew pushes, the maintained row must equal a rebuild from the rows.
+
+let t: TestApp
+let limits: ProjectLimits
+let slots: PlannedSlot[]
+const client = newClientId()
+let nextSeq = 1
+
+type Command =
+  | { kind: 'create'; slot: number; loss: number | null; offPlan: boolean }
+  | { kind: 'resplice'; pick: number; loss: number }
+  | { kind: 'update'; pick: number; loss: number | null; slot: number | null }
+  | { kind: 'delete'; pick: number }
+  | { kind: 'photo'; pick: number }
+  | { kind: 'unphoto'; pick: number }
+
+const loss = fc.integer({ min: -20, max: 500 }).map((n) => n / 1000)
+const command: fc.Arbitrary<Command> = fc.oneof(
+  fc.record({
+    kind: fc.constant('create' as const),
+    slot: fc.nat(23),
+    loss: fc.option(loss),
+    offPlan: fc.boolean(),
+  }),
+  fc.record({ kind: fc.constant('resplice' as const), pick: fc.nat(), loss }),
+  fc.record({
+    kind: fc.constant('update' as const),
+    pick: fc.nat(),
+    loss: fc.option(loss),
+    slot: fc.option(fc.nat(23)),
+  }),
+  fc.record({ kind: fc.constant('delete' as const), pick: fc.nat() }),
+  fc.record({ kind: fc.constant('photo' as const), pick: fc.nat() }),
+  fc.record({ kind: fc.constant('unphoto' as const), pick: fc.nat() }),
+)
+
+const one = <T>(sql: string, ...params: unknown[]) => t.database.sqlite.prepare(sql).get(...params) as T
+const all = <T>(sql: string, ...params: unknown[]) => t.database.sqlite.prepare(sql).all(...params) as T[]
+
+beforeAll(() => {
+  t = makeTestApp()
+  limits = JSON.parse(one<{ limits: string }>('SELECT limits FROM projects').limits) as ProjectLimits
+  // Tray 2 of the vault (empty) and tray 5 of the handhole (empty): fresh slots in two closures.
+  slots = [
+    ...Array.from({ length: 12 }, (_, i) => plannedSlot(t, 'VLT-01', 2, i + 1)),
+    ...Array.from({ length: 12 }, (_, i) => plannedSlot(t, 'HH-02', 5, i + 1)),
+  ]
+})
+afterAll(() => t.close())
+
+/** Turns abstract commands into mutations over the splices and links that exist when each is made. */
+function toMutations(commands: Command[]) {
+  const me = userId(t, 'splicer')
+  type Live = { id: string; tray_id: string; slot: number; attempt: number; pair: Record<string, unknown> }
+  const live = all<
+    Omit<Live, 'pair'> & { cableAId: string; fiberA: number; cableBId: string; fiberB: number }
+  >(
+    `SELECT id, tray_id, slot, attempt, cable_a_id AS cableAId, fiber_a AS fiberA, cable_b_id AS cableBId,
+       fiber_b AS fiberB FROM splices
+     WHERE deleted = 0 AND is_current = 1 AND closure_id IN (?, ?)`,
+    slots[0]!.closureId,
+    slots[12]!.closureId,
+  ).map(({ cableAId, fiberA, cableBId, fiberB, ...row }): Live => ({
+    ...row,
+    pair: { cableAId, fiberA, cableBId, fiberB },
+  }))
+  const links = all<{ id: string }>("SELECT id FROM photo_links WHERE deleted = 0 AND entity = 'splice'")
+  const made: ReturnType<typeof mutation>[] = []
+  const at = (pick: number) => live[pick % live.length]
+  for (const c of commands) {
+    if (c.kind === 'create') {
+      const slot = slots[c.slot]!
+      const args = spliceArgs(c.offPlan ? { ...slot, fiberB: slot.fiberB + 1 } : slot, me, client, {
+        lossDb: c.loss,
+      })
+      made.push(mutation(nextSeq++, 'createSplice', args))
+      const { cableAId, fiberA, cableBId, fiberB } = args
+      live.push({
+        id: args.id as string,
+        tray_id: slot.trayId,
+        slot: slot.slot,
+        attempt: 1,
+        pair: { cableAId, fiberA, cableBId, fiberB },
+      })
+      continue
+    }
+    const target = at(c.pick)
+    if (!target) continue
+    if (c.kind === 'resplice') {
+      const slot = slots.find((s) => s.trayId === target.tray_id) ?? slots[0]!
+      const args = spliceArgs({ ...slot, slot: target.slot }, me, client, {
+        ...target.pair,
+        lossDb: c.loss,
+        attempt: target.attempt + 1,
+        supersedesId: target.id,
+        respliceReason: 'high_loss',
+      })
+      made.push(mutation(nextSeq++, 'resplice', args))
+      live.push({ ...target, id: args.id as string, attempt: target.attempt + 1 })
+    } else if (c.kind === 'update') {
+      const fields: Record<string, unknown> = { lossDb: c.loss }
+      if (c.slot !== null) fields.slot = c.slot + 1
+      made.push(mutation(nextSeq++, 'updateSplice', { id: target.id, fields }))
+    } else if (c.kind === 'delete') {
+      made.push(mutation(nextSeq++, 'deleteSplice', { id: target.id }))
+    } else if (c.kind === 'photo') {
+      const sha256 = (c.pick % 4).toString(16).repeat(64)
+      made.push(
+        mutation(nextSeq++, 'addPhotoLink', { id: uuidv7(), sha256, entity: 'splice', entityId: target.id }),
+      )
+    } else if (links.length > 0) {
+      made.push(mutation(nextSeq++, 'removePhotoLink', { id: links[c.pick % links.length]!.id }))
+    }
+  }
+  return made
+}
+
+describe('closure totals under random pushes', () => {
+  it('when any sequence of splice, re-splice, edit, delete and photo mutations is pushed, then totals equal a rebuild', async () => {
+    const statuses = { applied: 0, other: 0 }
+    await fc.assert(
+      fc.asyncProperty(fc.array(command, { minLength: 1, maxLength: 25 }), async (commands) => {
+        const mutations = toMutations(commands)
+        if (mutations.length === 0) return
+        const body = await pushOk(t, 'splicer', client, mutations)
+        expect(body.results).toHaveLength(mutations.length)
+        for (const result of body.results) statuses[result.status === 'applied' ? 'applied' : 'other'] += 1
+        for (const closureId of [slots[0]!.closureId, slots[12]!.closureId]) {
+          const kept = one('SELECT * FROM closure_totals WHERE closure_id = ?', closureId)
+          t.database.sqlite.transaction(() => recomputeClosureTotals(t.database.sqlite, closureId, limits))()
+          expect(one('SELECT * FROM closure_totals WHERE closure_id = ?', closureId)).toEqual(kept)
+        }
+      }),
+      { numRuns: 40 },
+    )
+    // Most commands are meant to apply; a run of refusals would prove nothing about the totals.
+    expect(statuses.applied).toBeGreaterThan(3 * statuses.other)
+  })
+})

@@ -1,0 +1,333 @@
+// Push throughput through the real API against raw better-sqlite3 inserts of the same rows, and one pull of
+// 1,000 changes. Run with `npx tsx tests/bench/push.bench.ts`; importing the file only defines main().
+import { mkdtempSync, rmSync } from 'node:fs'
+import type { AddressInfo } from 'node:net'
+import { tmpdir } from 'node:os'
+import { join } from 'node:path'
+import { performance } from 'node:perf_hooks'
+import { pathToFileURL } from 'node:url'
+import { v7 } from 'uuid'
+import { type Database, openDatabase, writeTransaction } from '#db/client'
+import { runMigrations } from '#db/migrate'
+import { cables, closures, planRows, trays } from '#db/schema/index'
+import { demoUsers, seedDemo } from '#db/seed'
+import { maxMutationsPerPush, pullResponseSchema, pushResponseSchema } from '#shared/schemas/sync'
+import { createApp } from '../../server/app'
+import { loadConfig } from '../../server/config'
+import { recomputeProjectTotals } from '../../server/repositories/splices'
+import type { BenchFigure } from './board.bench'
+
+const spliceCount = 10_000
+const closureCount = 50
+const traysPerClosure = 10
+const slotsPerTray = 24
+
+interface World {
+  projectId: string
+  splicerId: string
+  cableA: string
+  cableB: string
+  closures: Array<{ id: string; trays: string[] }>
+  /** Every planned slot of the bench closures, in push order. */
+  slots: Array<{ closureId: string; trayId: string; slot: number; fiber: number }>
+}
+
+/** The bench closures' ids: 50 closures of 10 trays × 24 planned slots, the same in both databases. */
+function layout(): Pick<World, 'cableA' | 'cableB' | 'closures' | 'slots'> {
+  const closureList = Array.from({ length: closureCount }, () => ({
+    id: v7(),
+    trays: Array.from({ length: traysPerClosure }, () => v7()),
+  }))
+  const slots = closureList.flatMap((closure) =>
+    closure.trays.flatMap((trayId, t) =>
+      Array.from({ length: slotsPerTray }, (_, i) => ({
+        closureId: closure.id,
+        trayId,
+        slot: i + 1,
+        fiber: t * slotsPerTray + i + 1,
+      })),
+    ),
+  )
+  return { cableA: v7(), cableB: v7(), closures: closureList, slots }
+}
+
+/** A seeded demo database plus the bench closures, given to the demo splicer's crew. */
+function build(
+  dir: string,
+  name: string,
+  shape: ReturnType<typeof layout>,
+): { database: Database; world: World } {
+  const database = openDatabase(join(dir, `${name}.sqlite`))
+  runMigrations(database.db)
+  seedDemo(database.db, { bcryptCost: 4 })
+  const { sqlite } = database
+  const projectId = sqlite.prepare('SELECT id FROM projects').pluck().get() as string
+  const splicer = demoUsers.find((u) => u.key === 'splicer')!
+  const user = sqlite.prepare('SELECT id, crew_id FROM users WHERE email = ?').get(splicer.email) as {
+    id: string
+    crew_id: string
+  }
+  writeTransaction(sqlite, (serverSeq) => {
+    const db = database.db
+    for (const [id, label] of [
+      [shape.cableA, 'BN-288 bench feeder'],
+      [shape.cableB, 'BN-288 bench distribution'],
+    ] as const) {
+      db.insert(cables)
+        .values({
+          id,
+          projectId,
+          label,
+          fiberCount: 288,
+          construction: 'loose_tube',
+          fibersPerUnit: 12,
+          fiberType: 'G.652.D',
+          lengthM: 900,
+          serverSeq,
+        })
+        .run()
+    }
+    shape.closures.forEach((closure, c) => {
+      db.insert(closures)
+        .values({
+          id: closure.id,
+          projectId,
+          label: `BN-${String(c).padStart(3, '0')}`,
+          kind: 'handhole',
+          crewId: user.crew_id,
+          state: 'in_progress',
+          serverSeq,
+        })
+        .run()
+      closure.trays.forEach((trayId, t) => {
+        db.insert(trays)
+          .values({ id: trayId, closureId: closure.id, number: t + 1, capacity: slotsPerTray, serverSeq })
+          .run()
+      })
+    })
+    for (const slot of shape.slots) {
+      db.insert(planRows)
+        .values({
+          id: v7(),
+          closureId: slot.closureId,
+          trayId: slot.trayId,
+          slot: slot.slot,
+          cableAId: shape.cableA,
+          fiberA: slot.fiber,
+          cableBId: shape.cableB,
+          fiberB: slot.fiber,
+          serverSeq,
+        })
+        .run()
+    }
+    const limits = JSON.parse(
+      sqlite.prepare('SELECT limits FROM projects WHERE id = ?').pluck().get(projectId) as string,
+    )
+    recomputeProjectTotals(db, projectId, limits)
+  })
+  return { database, world: { ...shape, projectId, splicerId: user.id } }
+}
+
+function spliceArgsFor(world: World, clientId: string, n: number) {
+  const perClosure = spliceCount / closureCount
+  const closure = Math.floor(n / perClosure)
+  const slot = world.slots[closure * traysPerClosure * slotsPerTray + (n % perClosure)]!
+  return {
+    id: v7(),
+    closureId: slot.closureId,
+    trayId: slot.trayId,
+    slot: slot.slot,
+    cableAId: world.cableA,
+    fiberA: slot.fiber,
+    cableBId: world.cableB,
+    fiberB: slot.fiber,
+    method: 'single_fusion',
+    lossDb: Math.round(10 + ((n * 37) % 140)) / 1000,
+    splicedAt: new Date(Date.UTC(2025, 5, 11, 7) + n * 60_000).toISOString(),
+    splicerId: world.splicerId,
+    clientId,
+  }
+}
+
+/** Inserts the splices the API stored, as stored, with one prepared statement in one transaction. */
+function rawInsert(database: Database, rows: Record<string, unknown>[]): number {
+  const insert = database.sqlite.prepare(
+    `INSERT INTO splices (id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, method, loss_db,
+       attempt, resplice_reason, resplice_note, supersedes_id, accept_reason, notes, spliced_at, splicer_id, client_id,
+       is_current, flags, review_state, created_at, server_seq, deleted)
+     VALUES (@id, @closure_id, @tray_id, @slot, @cable_a_id, @fiber_a, @cable_b_id, @fiber_b, @method, @loss_db,
+       @attempt, @resplice_reason, @resplice_note, @supersedes_id, @accept_reason, @notes, @spliced_at, @splicer_id,
+       @client_id, @is_current, @flags, @review_state, @created_at, @server_seq, @deleted)`,
+  )
+  const started = performance.now()
+  database.sqlite
+    .transaction(() => {
+      for (const row of rows) insert.run(row)
+    })
+    .immediate()
+  return performance.now() - started
+}
+
+interface PushRun {
+  pushMs: number
+  pullMs: number
+  /** The splices as the API stored them, for the raw insert. */
+  rows: Record<string, unknown>[]
+}
+
+/** Starts the app on a fresh seeded database, pushes 10,000 splices over HTTP, then pulls 1,000 changes. */
+async function pushThroughApi(
+  dir: string,
+  name: string,
+  shape: ReturnType<typeof layout>,
+  tempStoreMemory: boolean,
+) {
+  const api = build(dir, name, shape)
+  if (tempStoreMemory) api.database.sqlite.pragma('temp_store = MEMORY')
+  const config = loadConfig(
+    {
+      NODE_ENV: 'production',
+      LIGHTSEAM_DATA_DIR: join(dir, name),
+      LIGHTSEAM_STATIC_DIR: join(dir, 'no-dist'),
+    },
+    { jwtSecret: new TextEncoder().encode('bench-secret-bench-secret-bench-secret-0123') },
+  )
+  const app = createApp({ config, database: api.database, version: 'bench' })
+  const server = app.listen(0, '127.0.0.1')
+  await new Promise((resolve) => server.once('listening', resolve))
+  const base = `http://127.0.0.1:${(server.address() as AddressInfo).port}`
+  try {
+    const splicer = demoUsers.find((u) => u.key === 'splicer')!
+    const signIn = await fetch(`${base}/api/auth/sign-in`, {
+      method: 'POST',
+      headers: { 'Content-Type': 'application/json' },
+      body: JSON.stringify({ email: splicer.email, password: splicer.password }),
+    })
+    const auth = `Bearer ${((await signIn.json()) as { accessToken: string }).accessToken}`
+    const clientId = v7()
+    const headSeq = api.database.sqlite.prepare('SELECT value FROM change_seq').pluck().get() as number
+    // Bodies are made before the clock starts: the figure is the server's, plus loopback HTTP.
+    const bodies: string[] = []
+    for (let b = 0; b < spliceCount / maxMutationsPerPush; b += 1) {
+      const mutations = Array.from({ length: maxMutationsPerPush }, (_, i) => {
+        const n = b * maxMutationsPerPush + i
+        return {
+          seq: n + 1,
+          name: 'createSplice',
+          args: spliceArgsFor(api.world, clientId, n),
+          baseServerSeq: headSeq,
+          clientTime: new Date().toISOString(),
+        }
+      })
+      bodies.push(JSON.stringify({ clientId, schemaVersion: 1, mutations }))
+    }
+    let started = performance.now()
+    // fetch keeps the connection alive between requests.
+    for (const body of bodies) {
+      const res = await fetch(`${base}/api/sync/push`, {
+        method: 'POST',
+        headers: { 'Content-Type': 'application/json', Authorization: auth },
+        body,
+      })
+      const parsed = pushResponseSchema.parse(await res.json())
+      const refused = parsed.results.find((r) => r.status !== 'applied')
+      if (res.status !== 200 || refused)
+        throw new Error(`push failed: ${res.status} ${JSON.stringify(refused)}`)
+    }
+    const pushMs = performance.now() - started
+
+    started = performance.now()
+    const pulled = await fetch(`${base}/api/sync/pull?cursor=${headSeq}&limit=1000`, {
+      headers: { Authorization: auth },
+    })
+    const page = pullResponseSchema.parse(await pulled.json())
+    const pullMs = performance.now() - started
+    if (page.changes.length < 1000) throw new Error(`pull returned ${page.changes.length} changes`)
+
+    const rows = api.database.sqlite
+      .prepare('SELECT * FROM splices WHERE client_id = ? ORDER BY server_seq')
+      .all(clientId) as Record<string, unknown>[]
+    return { pushMs, pullMs, rows } satisfies PushRun
+  } finally {
+    server.close()
+    api.database.sqlite.close()
+  }
+}
+
+/** Pushes 10,000 splices through the API, inserts the same rows raw into a second database, pulls 1,000 changes. */
+export async function main(options: { log?: (line: string) => void } = {}): Promise<BenchFigure[]> {
+  const log = options.log ?? (() => undefined)
+  const dir = mkdtempSync(join(tmpdir(), 'lightseam-push-bench-'))
+  const shape = layout()
+  try {
+    log(
+      `pushing ${spliceCount.toLocaleString('en')} createSplice in ${spliceCount / maxMutationsPerPush} batches…`,
+    )
+    const api = await pushThroughApi(dir, 'api', shape, false)
+    const raw = build(dir, 'raw', shape)
+    const rawMs = rawInsert(raw.database, api.rows)
+    raw.database.sqlite.close()
+    log(
+      `API ${api.pushMs.toFixed(0)} ms (${((1000 * api.pushMs) / spliceCount).toFixed(0)} µs a splice), raw ${rawMs.toFixed(0)} ms`,
+    )
+    // Savepoint journals spill to temp files past 64 KiB; one mutation's pages come close. Measured for db/client.ts.
+    const memory = await pushThroughApi(dir, 'memory', shape, true)
+    log(`with temp_store = MEMORY: ${memory.pushMs.toFixed(0)} ms`)
+    return [
+      {
+        figure: 'push 10,000 createSplice over HTTP (100 × 100)',
+        target: 2,
+        measured: api.pushMs / 1000,
+        unit: 's',
+      },
+      {
+        figure: 'raw prepared insert of the same rows, one transaction',
+        target: null,
+        measured: rawMs / 1000,
+        unit: 's',
+      },
+      // The same rows per second through the API as a share of raw inserts (DESIGN.md §5 wants at least 25 %).
+      {
+        figure: 'API throughput / raw insert throughput (≥ target)',
+        target: 25,
+        measured: (100 * rawMs) / api.pushMs,
+        unit: '%',
+      },
+      {
+        figure: 'pull 1,000 changes (one page, splicer scope)',
+        target: null,
+        measured: api.pullMs,
+        unit: 'ms',
+      },
+      {
+        figure: 'push 10,000 with PRAGMA temp_store = MEMORY (proposed)',
+        target: 2,
+        measured: memory.pushMs / 1000,
+        unit: 's',
+        baseline: api.pushMs / 1000,
+      },
+    ]
+  } finally {
+    rmSync(dir, { recursive: true, force: true })
+  }
+}
+
+/** Formats the figures as the table the benchmark prints. */
+export function formatTable(figures: BenchFigure[]): string {
+  const num = (v: number) => (v < 10 ? v.toFixed(3) : v.toFixed(1))
+  const rows = figures.map((f) => [
+    f.figure,
+    f.target === null ? '—' : `${f.target} ${f.unit}`,
+    `${num(f.measured)} ${f.unit}`,
+  ])
+  const head = ['figure', 'target', 'measured']
+  const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r[i]!.length)))
+  const line = (cells: string[]) =>
+    cells.map((c, i) => (i === 0 ? c.padEnd(widths[i]!) : c.padStart(widths[i]!))).join('  ')
+  return [line(head), widths.map((w) => '-'.repeat(w)).join('  '), ...rows.map(line)].join('\n')
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+  const figures = await main({ log: (line) => process.stdout.write(`${line}\n`) })
+  process.stdout.write(`\n${formatTable(figures)}\n`)
+}
