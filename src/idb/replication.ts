@@ -58,11 +58,34 @@ export async function applyPull(
       if (writes.size > 0) await db.table(table).bulkPut([...writes.values()])
       applied += writes.size
     }
+    // A closure tombstone without its row means the closure left this user's scope: drop what hangs
+    // under it too, so the device holds nothing the user may no longer read.
+    for (const change of response.changes) {
+      if (change.table === 'closures' && change.deleted && change.row === null)
+        await dropClosure(db, change.id)
+    }
     const cursor = Math.max(meta.cursor, response.cursor)
     await db.meta.update('device', { cursor, lastPullAt: new Date(now()).toISOString() })
     await replayOutbox(db, await db.outbox.toArray())
     return { applied, cursor }
   })
+}
+
+async function dropClosure(db: DeviceDb, closureId: string): Promise<void> {
+  const spliceIds = (await db.splices.where('closureId').equals(closureId).primaryKeys()) as string[]
+  const trayIds = (await db.trays.where('closureId').equals(closureId).primaryKeys()) as string[]
+  const entities: [string, string][] = [
+    ['closure', closureId],
+    ...spliceIds.map((id) => ['splice', id] as [string, string]),
+    ...trayIds.map((id) => ['tray', id] as [string, string]),
+  ]
+  await db.photoLinks.where('[entity+entityId]').anyOf(entities).delete()
+  await db.notes.where('[entity+entityId]').anyOf(entities).delete()
+  await db.splices.bulkDelete(spliceIds)
+  await db.trays.bulkDelete(trayIds)
+  await db.planRows.where('closureId').equals(closureId).delete()
+  await db.closureAssignments.where('closureId').equals(closureId).delete()
+  await db.closures.delete(closureId)
 }
 
 export interface SettleOutcome {

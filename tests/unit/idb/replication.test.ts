@@ -69,6 +69,22 @@ describe('applying a pull page', () => {
     expect(await db.splices.get(row.id)).toMatchObject({ deleted: true, serverSeq: 8 })
   })
 
+  it('when a closure leaves the user’s scope (tombstone without a row), then it and all under it leave the device', async () => {
+    const db = await freshDb()
+    await seedClosure(db)
+    const row = spliceChange({ id: spliceArgs(1).id }, 6)
+    await applyPull(db, page([row], 6))
+    expect(await db.trays.where('closureId').equals(ids.closure).count()).toBeGreaterThan(0)
+    await applyPull(
+      db,
+      page([{ table: 'closures', id: ids.closure, serverSeq: 9, deleted: true, row: null }], 9),
+    )
+    expect(await db.closures.get(ids.closure)).toBeUndefined()
+    expect(await db.trays.where('closureId').equals(ids.closure).count()).toBe(0)
+    expect(await db.splices.where('closureId').equals(ids.closure).count()).toBe(0)
+    expect((await deviceMeta(db)).cursor).toBe(9)
+  })
+
   it('when a pulled row covers a record with a pending local edit, then the local edit stays visible', async () => {
     const db = await freshDb()
     await seedClosure(db)
