@@ -8,6 +8,7 @@ import { quasarOptions } from '../quasar.config'
 import App from '@/App.vue'
 import { router } from '@/router'
 import { bootPwa } from '@/boot/pwa'
+import { bootSync } from '@/boot/sync'
 import { useUiStore } from '@/stores/ui'
 
 const app = createApp(App)
@@ -18,5 +19,6 @@ app.use(router)
 // Boot files run in this order, one concern each.
 useUiStore()
 bootPwa()
+bootSync()
 
 app.mount('#app')

@@ -6,8 +6,12 @@ declare module 'vue-router' {
     title?: string
     /** Roles that may open the route; absent means anyone signed in (or not, for public pages). */
     roles?: Role[]
+    /** Opens without a signed-in user. */
+    public?: boolean
   }
 }
+
+const fieldRoles: Role[] = ['splicer', 'foreman', 'office']
 
 export const routes: RouteRecordRaw[] = [
   {
@@ -16,9 +20,27 @@ export const routes: RouteRecordRaw[] = [
     children: [
       {
         path: '',
-        name: 'home',
-        component: () => import('@/pages/HomePage.vue'),
-        meta: { title: 'Lightseam' },
+        name: 'closures',
+        component: () => import('@/pages/ClosuresPage.vue'),
+        meta: { title: 'Closures', roles: fieldRoles },
+      },
+      {
+        path: 'sign-in',
+        name: 'sign-in',
+        component: () => import('@/pages/SignInPage.vue'),
+        meta: { title: 'Sign in', public: true },
+      },
+      {
+        path: 'closures/:closureId',
+        name: 'closure',
+        component: () => import('@/pages/ClosurePage.vue'),
+        meta: { title: 'Closure', roles: fieldRoles },
+      },
+      {
+        path: 'closures/:closureId/trays/:trayId',
+        name: 'tray',
+        component: () => import('@/pages/TrayPage.vue'),
+        meta: { title: 'Tray', roles: fieldRoles },
       },
     ],
   },
@@ -26,6 +48,6 @@ export const routes: RouteRecordRaw[] = [
     path: '/:catchAll(.*)*',
     name: 'not-found',
     component: () => import('@/pages/NotFoundPage.vue'),
-    meta: { title: 'Not found' },
+    meta: { title: 'Not found', public: true },
   },
 ]
