@@ -29,9 +29,10 @@ import { closureFacts } from '../repositories/syncReads'
 import { canSeeClosure } from './access'
 import {
   applyMutation,
-  type ApplyEnv,
   auditTargetOf,
+  type BatchMemo,
   closureOfPayload,
+  newBatchMemo,
   refusalCodes,
   type RefusalCode,
 } from './syncApply'
@@ -88,7 +89,7 @@ interface Attempt {
   clientId: string
   mutation: Pick<Mutation, 'seq' | 'name' | 'args' | 'baseServerSeq' | 'clientTime'>
   at: string
-  limits: ApplyEnv['limits']
+  memo: BatchMemo
 }
 
 /**
@@ -96,7 +97,7 @@ interface Attempt {
  * and comes back as a `rejected` result (the caller quarantines it); anything else is rethrown.
  */
 function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
-  const { actor, clientId, mutation, at, limits } = work
+  const { actor, clientId, mutation, at, memo } = work
   try {
     return writeTransaction(ctx.database.sqlite, (serverSeq) => {
       ctx.config.syncTestHooks.beforeApply?.(mutation, index)
@@ -110,7 +111,7 @@ function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
           clientTime: mutation.clientTime,
           serverSeq,
           at,
-          limits,
+          memo,
         },
         mutation.name,
         mutation.args,
@@ -118,6 +119,8 @@ function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
       return { seq: mutation.seq, ...outcome, serverSeq }
     })
   } catch (error) {
+    // The savepoint is gone, and with it any closure change the mutation made after the memo read it.
+    memo.closures.clear()
     const refusal = refusalOf(error)
     if (!refusal) throw error
     return { seq: mutation.seq, status: 'rejected', ...refusal }
@@ -178,7 +181,7 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       )
     }
     let lastSeq = client.lastSeq
-    const limits: ApplyEnv['limits'] = new Map()
+    const memo = newBatchMemo()
     const results: MutationResult[] = []
     for (const [index, mutation] of input.mutations.entries()) {
       if (mutation.seq <= lastSeq) {
@@ -194,7 +197,7 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
           results.push({ seq: rest.seq, status: 'gap', expectedSeq })
         break
       }
-      const work: Attempt = { actor, clientId: input.clientId, mutation, at, limits }
+      const work: Attempt = { actor, clientId: input.clientId, mutation, at, memo }
       const result = attempt(ctx, work, index)
       if (result.status === 'rejected') quarantine(sqlite, work, result)
       storeResult(sqlite, { clientId: input.clientId, seq: mutation.seq, name: mutation.name, result, at })
@@ -292,7 +295,7 @@ export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unkno
           clientTime: at,
         },
         at,
-        limits: new Map(),
+        memo: newBatchMemo(),
       },
       0,
     )

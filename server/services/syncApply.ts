@@ -4,6 +4,7 @@ import type { Conn } from '#db/client'
 import { closures, notes, photoLinks, splices } from '#db/schema/index'
 import { assessSplice } from '#shared/domain/acceptance'
 import { samePair } from '#shared/domain/plan'
+import type { SlottedPair } from '#shared/domain/plan'
 import type { Role } from '#shared/schemas/enums'
 import type { ProjectLimits } from '#shared/schemas/project'
 import type { SpliceCreate, SpliceUpdate } from '#shared/schemas/splice'
@@ -19,11 +20,13 @@ import {
   cableFacts,
   type ClosureFacts,
   closureFacts,
+  type CableFacts,
   type FieldStamp,
   planRowAt,
   spliceFieldStamps,
   spliceIdTaken,
   spliceNeighbours,
+  type TrayFacts,
   trayFacts,
   userFacts,
 } from '../repositories/syncReads'
@@ -63,9 +66,39 @@ export interface ApplyEnv {
   serverSeq: number
   /** Server time of the push. */
   at: string
-  /** Per-batch memo of project limits (they change only through the REST API, never inside a push). */
-  limits: Map<string, ProjectLimits>
+  /** Facts read once per batch: see BatchMemo. */
+  memo: BatchMemo
 }
+
+/**
+ * Reads memoised for one batch. The batch holds the write lock throughout, so only its own mutations could
+ * change them: project limits, trays, cables and plan rows no mutation writes; closures setClosure writes,
+ * and it (like any refusal, whose savepoint may have undone one) drops the closure facts.
+ */
+export interface BatchMemo {
+  limits: Map<string, ProjectLimits>
+  closures: Map<string, ClosureFacts | undefined>
+  trays: Map<string, TrayFacts | undefined>
+  cables: Map<string, CableFacts | undefined>
+  planRows: Map<string, SlottedPair | null>
+}
+
+export function newBatchMemo(): BatchMemo {
+  return { limits: new Map(), closures: new Map(), trays: new Map(), cables: new Map(), planRows: new Map() }
+}
+
+/** The memoised value of `key`, read with `load` the first time (undefined and null are memoised too). */
+function memoised<K, V>(map: Map<K, V>, key: K, load: () => V): V {
+  if (map.has(key)) return map.get(key) as V
+  const value = load()
+  map.set(key, value)
+  return value
+}
+
+const closureOf = (env: ApplyEnv, id: string) =>
+  memoised(env.memo.closures, id, () => closureFacts(env.conn, id))
+const trayOf = (env: ApplyEnv, id: string) => memoised(env.memo.trays, id, () => trayFacts(env.conn, id))
+const cableOf = (env: ApplyEnv, id: string) => memoised(env.memo.cables, id, () => cableFacts(env.conn, id))
 
 /** How a mutation that was not refused went: applied, or merged with some of its values overwritten. */
 export interface ApplyOutcome {
@@ -91,18 +124,18 @@ function change(env: ApplyEnv, entity: string, entityId: string): Change {
 }
 
 function limitsOf(env: ApplyEnv, projectId: string): ProjectLimits {
-  let limits = env.limits.get(projectId)
+  let limits = env.memo.limits.get(projectId)
   if (!limits) {
     limits = loadProjectLimits(env.conn, projectId)
     if (!limits) throw refuse('not_found', 'The project was not found.')
-    env.limits.set(projectId, limits)
+    env.memo.limits.set(projectId, limits)
   }
   return limits
 }
 
 /** The closure when it exists and the actor may see it; another crew's closure reads as missing. */
 function visibleClosure(env: ApplyEnv, closureId: string): ClosureFacts {
-  const closure = closureFacts(env.conn, closureId)
+  const closure = closureOf(env, closureId)
   if (!closure || closure.deleted || !canSeeClosure(env.actor, closure))
     throw refuse('not_found', 'The closure was not found.')
   return closure
@@ -141,7 +174,7 @@ type Placement = Pick<SpliceCreate, 'trayId' | 'slot' | 'cableAId' | 'fiberA' | 
 
 /** The splice must fit the closure: its tray, a slot within the tray, cables of the project. */
 function assertFits(env: ApplyEnv, closure: ClosureFacts, splice: Placement): void {
-  const tray = trayFacts(env.conn, splice.trayId)
+  const tray = trayOf(env, splice.trayId)
   if (!tray || tray.deleted || tray.closureId !== closure.id)
     throw refuse('invalid', 'The tray is not in this closure.')
   if (splice.slot > tray.capacity)
@@ -150,7 +183,7 @@ function assertFits(env: ApplyEnv, closure: ClosureFacts, splice: Placement): vo
     [splice.cableAId, splice.fiberA],
     [splice.cableBId, splice.fiberB],
   ] as const) {
-    const cable = cableFacts(env.conn, cableId)
+    const cable = cableOf(env, cableId)
     if (!cable || cable.deleted || cable.projectId !== closure.projectId)
       throw refuse('invalid', 'A cable of the splice is not in this project.')
     if (fiber > cable.fiberCount)
@@ -167,13 +200,16 @@ function flagsFor(
   splice: Parameters<typeof assessSplice>[0],
 ): string[] {
   return assessSplice(splice, limits, {
-    planRow: planRowAt(env.conn, closure.id, splice.trayId, splice.slot),
+    planRow: memoised(env.memo.planRows, `${closure.id}|${splice.trayId}|${splice.slot}`, () =>
+      planRowAt(env.conn, closure.id, splice.trayId, splice.slot),
+    ),
     otherCurrentSplices: spliceNeighbours(env.conn, splice),
     closureState: closure.state,
   }).flags
 }
 
 function setClosure(env: ApplyEnv, before: Record<string, unknown>, id: string, patch: object): void {
+  env.memo.closures.delete(id)
   closureRecords.update(env.conn, id, patch, env.serverSeq)
   recordFieldChanges(env.conn, change(env, 'closure', id), before, patch as Record<string, unknown>)
 }
@@ -349,7 +385,7 @@ function closureOfTarget(
     const splice = spliceRow(env.conn, entityId)
     closureId = splice && !splice.deleted ? splice.closureId : undefined
   } else if (entity === 'tray') {
-    const tray = trayFacts(env.conn, entityId)
+    const tray = trayOf(env, entityId)
     closureId = tray && !tray.deleted ? tray.closureId : undefined
   }
   if (!closureId) throw refuse('not_found', `The ${entity} was not found.`)
