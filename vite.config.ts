@@ -57,6 +57,8 @@ export default defineConfig({
     target: 'es2022',
     sourcemap: false,
     chunkSizeWarningLimit: 600,
+    // Read by tests/bench/bundle.bench.ts to add up what the field screens load.
+    manifest: true,
   },
   test: {
     projects: [
