@@ -39,7 +39,13 @@ export const errorHandler: ErrorRequestHandler = (err: unknown, _req, res, next)
     res.status(413).json({ error: { code: 'too_large', message: 'The request body is too large.' } })
     return
   }
-  if (bodyError?.type && typeof bodyError.status === 'number' && bodyError.status < 500) {
+  // Express answers a malformed %-escape in the path with a URIError carrying status 400 and no type.
+  if (
+    (bodyError?.type || err instanceof URIError) &&
+    typeof bodyError.status === 'number' &&
+    bodyError.status >= 400 &&
+    bodyError.status < 500
+  ) {
     res
       .status(bodyError.status)
       .json({ error: { code: 'bad_request', message: 'The request could not be read.' } })

@@ -1,4 +1,4 @@
-import { and, asc, desc, eq, inArray, like, type SQL } from 'drizzle-orm'
+import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import { z } from 'zod'
 import { writeTransaction } from '#db/client'
 import { closureAssignments, closures, planRows, splices, trays, users } from '#db/schema/index'
@@ -51,7 +51,10 @@ export function listClosures(ctx: AppContext, actor: Actor, projectId: unknown, 
   if (q.state) filters.push(eq(closures.state, q.state))
   if (q.kind) filters.push(eq(closures.kind, q.kind))
   if (q.crewId) filters.push(eq(closures.crewId, q.crewId))
-  if (q.q) filters.push(like(closures.label, `%${q.q.replace(/[%_\\]/g, '\\$&')}%`))
+  if (q.q) {
+    const pattern = `%${q.q.replace(/[%_\\]/g, '\\$&')}%`
+    filters.push(sql`${closures.label} LIKE ${pattern} ESCAPE '\\'`)
+  }
   const column = q.sort === 'routePosition' ? closures.routePositionM : closures.label
   return closureRecords.list(
     ctx.database.db,

@@ -1,8 +1,8 @@
 import bcrypt from 'bcryptjs'
-import { and, asc, count, eq, like, or, sql, type SQL } from 'drizzle-orm'
+import { and, asc, count, eq, isNull, or, sql, type SQL } from 'drizzle-orm'
 import { z } from 'zod'
 import { writeTransaction } from '#db/client'
-import { crews, users } from '#db/schema/index'
+import { crews, refreshTokens, users } from '#db/schema/index'
 import {
   crewCreateSchema,
   crewUpdateSchema,
@@ -64,7 +64,12 @@ export function listUsers(ctx: AppContext, query: unknown) {
   if (q.active) filters.push(eq(users.active, q.active === 'true'))
   if (q.q) {
     const pattern = `%${q.q.toLowerCase().replace(/[%_\\]/g, '\\$&')}%`
-    filters.push(or(like(sql`lower(${users.name})`, pattern), like(users.email, pattern)))
+    filters.push(
+      or(
+        sql`lower(${users.name}) LIKE ${pattern} ESCAPE '\\'`,
+        sql`${users.email} LIKE ${pattern} ESCAPE '\\'`,
+      ),
+    )
   }
   const where = and(...filters)
   const items = db
@@ -147,6 +152,14 @@ export function updateUser(ctx: AppContext, actor: Actor, userId: unknown, body:
       .where(eq(users.id, before.id))
       .returning()
       .get()
+    // Access tokens die with the version bump; refresh tokens must be revoked too, or a stolen cookie
+    // would outlive a password reset or a disabled account.
+    if (endsSessions) {
+      tx.update(refreshTokens)
+        .set({ revokedAt: now() })
+        .where(and(eq(refreshTokens.userId, before.id), isNull(refreshTokens.revokedAt)))
+        .run()
+    }
     recordFieldChanges(
       tx,
       { userId: actor.id, entity: 'user', entityId: before.id, at: now() },

@@ -33,6 +33,7 @@ import {
   type BatchMemo,
   closureOfPayload,
   newBatchMemo,
+  refuse,
   refusalCodes,
   type RefusalCode,
 } from './syncApply'
@@ -101,6 +102,11 @@ function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
   try {
     return writeTransaction(ctx.database.sqlite, (serverSeq) => {
       ctx.config.syncTestHooks.beforeApply?.(mutation, index)
+      // A device cannot have seen a change that does not exist yet; a base from the future would switch
+      // conflict detection off and let a value be replaced without a trace.
+      if (mutation.baseServerSeq >= serverSeq) {
+        throw refuse('invalid', 'The change claims to build on server changes that do not exist yet.')
+      }
       const outcome = applyMutation(
         {
           conn: ctx.database.sqlite,

@@ -16,6 +16,7 @@ import { recordEvent, recordFieldChanges } from '../repositories/syncAudit'
 import { dbOf, recordsOf } from '../repositories/records'
 import { insertPhotoLink, insertSplice, loadProjectLimits } from '../repositories/splices'
 import { tombstonePhotoLink, tombstoneSplice, updateSpliceFields } from '../repositories/spliceUpdates'
+import { closuresShowingPhoto, findPhoto } from '../repositories/photos'
 import {
   cableFacts,
   type ClosureFacts,
@@ -405,7 +406,16 @@ function addPhotoLink(env: ApplyEnv, args: unknown): ApplyOutcome {
     if (same && !existing.deleted) return applied
     throw refuse('conflict', 'A photo link with this id already exists.')
   }
-  // No check that the photo is stored: push never waits for uploads, the link shows as missing until then.
+  // A link grants read access to the photo, so a stored photo may only be linked by its uploader or by
+  // someone who can already read it; a photo not uploaded yet can be linked (push never waits for uploads).
+  const photo = findPhoto(env.conn, input.sha256)
+  if (
+    photo &&
+    photo.uploadedBy !== env.actor.id &&
+    !closuresShowingPhoto(env.conn, input.sha256).some((c) => canSeeClosure(env.actor, c))
+  ) {
+    throw refuse('not_found', 'The photo was not found.')
+  }
   insertPhotoLink(
     env.conn,
     { ...input, addedBy: env.actor.id, createdAt: env.at },

@@ -271,6 +271,18 @@ describe('refresh tokens', () => {
     expect((await request(t.app).post('/api/auth/refresh').set('Cookie', second)).status).toBe(401)
   })
 
+  it('when the office resets the password or disables the account, then refresh tokens stop working too', async () => {
+    const stolen = refreshCookie(await signIn())
+    const office = await t.tokenFor('office')
+    const splicer = findUserByEmail(t.database, demoUser('splicer').email)!
+    const reset = await request(t.app)
+      .patch(`/api/users/${splicer.id}`)
+      .set('Authorization', office)
+      .send({ password: 'a brand new long password' })
+    expect(reset.status).toBe(200)
+    expect((await request(t.app).post('/api/auth/refresh').set('Cookie', stolen)).status).toBe(401)
+  })
+
   it('when signed out, then the refresh token no longer works', async () => {
     const cookie = refreshCookie(await signIn())
     expect((await request(t.app).post('/api/auth/sign-out').set('Cookie', cookie)).status).toBe(204)

@@ -102,6 +102,25 @@ describe('PUT, HEAD and GET /api/photos/:sha256', () => {
     expect(await head('inspector')).toBe(200)
   })
 
+  it('when someone links a stored photo they could not read, then the link is refused and the photo stays hidden', async () => {
+    t = makeTestApp()
+    const hash = sha256(iconPng)
+    expect((await upload(t, 'splicer2', iconPng, 'image/png')).status).toBe(201)
+    await linkTo(hash, 'AER-05', 'splicer2') // crew 2's own closure
+    const read = async () =>
+      (
+        await request(t.app)
+          .get(`/api/photos/${hash}`)
+          .set('Authorization', await t.tokenFor('splicer'))
+      ).status
+    expect(await read()).toBe(404)
+    // Crew 1's splicer knows the hash and tries to link it to a closure of their own to read it.
+    const link = { id: uuidv7(), sha256: hash, entity: 'closure', entityId: closureId(t, 'VLT-01') }
+    const answer = await pushOk(t, 'splicer', newClientId(), [mutation(1, 'addPhotoLink', link)])
+    expect(answer.results[0]).toMatchObject({ status: 'rejected', code: 'not_found' })
+    expect(await read()).toBe(404)
+  })
+
   it('when the same photo is uploaded again or ten times at once, then there is one file and one row', async () => {
     t = makeTestApp()
     const again = jpegBytes()

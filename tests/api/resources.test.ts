@@ -386,6 +386,9 @@ describe('users and crews', () => {
     const named = await api.get('/api/users?q=ODUYA')
     expect(named.body.items.map((u: { name: string }) => u.name)).toEqual(['Maren Oduya'])
     expect((await api.get('/api/users?active=false')).body.total).toBe(0)
+    // LIKE wildcards typed by the user are matched literally.
+    expect((await api.get('/api/users?q=%25')).body.total).toBe(0)
+    expect((await api.get('/api/users?q=_')).body.total).toBe(0)
     expect((await api.get('/api/users?role=admin')).status).toBe(400)
   })
 
@@ -450,6 +453,14 @@ describe('bad input on every write route', () => {
     }
     expect(tableCounts(t.database)).toEqual(before)
     expect(({} as Record<string, unknown>).admin).toBeUndefined()
+  })
+
+  it('when an address carries a malformed %-escape, then 400 with the error shape, even without a token', async () => {
+    for (const path of ['/api/closures/%E0%A4%A', '/api/photos/%zz', '/api/projects/%']) {
+      const res = await request(t.app).get(path)
+      expect(res.status).toBe(400)
+      expect(res.body.error.code).toBe('bad_request')
+    }
   })
 
   it('when a validation fails, then every bad field is listed', async () => {

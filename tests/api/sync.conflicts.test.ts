@@ -66,6 +66,13 @@ describe('per-field conflicts', () => {
     ])
   })
 
+  it('when an edit claims a base from the future, then it is refused rather than slipping past conflict checks', async () => {
+    await pushOk(t, 'foreman', foremanTablet, [update(1, { lossDb: 0.09 })])
+    const body = await pushOk(t, 'splicer', phone, [update(2, { lossDb: 0.04 }, Number.MAX_SAFE_INTEGER)])
+    expect(body.results[0]).toMatchObject({ seq: 2, status: 'rejected', code: 'invalid' })
+    expect(splice()).toMatchObject({ loss_db: 0.09 })
+  })
+
   it('when the foreman edits a value a splicer changed since, then the foreman’s value wins and the splicer’s is kept in the trail', async () => {
     await pushOk(t, 'splicer', phone, [update(2, { lossDb: 0.05 })])
     const body = await pushOk(t, 'foreman', foremanTablet, [update(1, { lossDb: 0.08 })])
