@@ -4,7 +4,7 @@ import request from 'supertest'
 import { v7 as uuidv7 } from 'uuid'
 import { afterEach, describe, expect, it, vi } from 'vitest'
 import { imageDimensions, sniffImageType } from '../../server/services/photos'
-import { makeTestApp, tableCounts, type TestApp } from './support/app'
+import { makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
 import {
   iconPng,
   jpegBytes,
@@ -21,7 +21,7 @@ let t: TestApp
 afterEach(() => t?.close())
 
 /** Links a photo to a closure through push, as the device does once the photo is taken. */
-async function linkTo(hash: string, label: string, who: 'splicer' | 'foreman' | 'office' = 'office') {
+async function linkTo(hash: string, label: string, who: DemoWho = 'office') {
   const client = newClientId()
   const link = { id: uuidv7(), sha256: hash, entity: 'closure', entityId: closureId(t, label) }
   await pushOk(t, who, client, [mutation(1, 'addPhotoLink', link)])
