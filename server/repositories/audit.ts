@@ -1,9 +1,8 @@
 import { and, count, desc, eq } from 'drizzle-orm'
-import type { Conn } from '#db/client'
+import type BetterSqlite3 from 'better-sqlite3'
+import { type Conn, rawSqlite, type Sqlite } from '#db/client'
 import { auditLog, users } from '#db/schema/index'
 import { dbOf } from './records'
-
-type AuditInsert = typeof auditLog.$inferInsert
 
 export interface Change {
   userId: string | null
@@ -14,34 +13,76 @@ export interface Change {
   mutationSeq?: number | null
 }
 
+type AuditOutcome = (typeof auditLog.$inferInsert)['outcome']
+
+interface Row {
+  at: string
+  userId: string | null
+  clientId: string | null
+  entity: string
+  entityId: string
+  field: string | null
+  oldValue: string | null
+  newValue: string | null
+  outcome: AuditOutcome
+  mutationSeq: number | null
+}
+
+// One prepared statement per connection: a push writes audit rows for every mutation, and building a
+// Drizzle insert each time cost about 7× the insert itself (tests/bench/push.bench.ts).
+const statements = new WeakMap<Sqlite, BetterSqlite3.Statement<[Row]>>()
+
+function insert(conn: Conn, row: Row): void {
+  const sqlite = rawSqlite(conn)
+  let statement = statements.get(sqlite)
+  if (!statement) {
+    statement = sqlite.prepare(
+      `INSERT INTO audit_log (at, user_id, client_id, entity, entity_id, field, old_value, new_value, outcome, mutation_seq)
+       VALUES (@at, @userId, @clientId, @entity, @entityId, @field, @oldValue, @newValue, @outcome, @mutationSeq)`,
+    )
+    statements.set(sqlite, statement)
+  }
+  statement.run(row)
+}
+
+// Stored as JSON text, as the column's json mode reads it; null stays SQL NULL.
+const json = (value: unknown) => (value === null || value === undefined ? null : JSON.stringify(value))
+
+function base(change: Change) {
+  return {
+    at: change.at,
+    userId: change.userId,
+    clientId: change.clientId ?? null,
+    entity: change.entity,
+    entityId: change.entityId,
+    mutationSeq: change.mutationSeq ?? null,
+  }
+}
+
 /** Appends one audit row per field whose value differs between `before` and `after`. */
 export function recordFieldChanges(
   conn: Conn,
   change: Change,
   before: Record<string, unknown>,
   after: Record<string, unknown>,
-  outcome: AuditInsert['outcome'] = 'applied',
+  outcome: AuditOutcome = 'applied',
 ): void {
-  const rows: AuditInsert[] = []
   for (const field of Object.keys(after)) {
     if (field === 'serverSeq') continue
     if (JSON.stringify(before[field] ?? null) === JSON.stringify(after[field] ?? null)) continue
-    rows.push({ ...change, field, oldValue: before[field] ?? null, newValue: after[field] ?? null, outcome })
+    insert(conn, {
+      ...base(change),
+      field,
+      oldValue: json(before[field]),
+      newValue: json(after[field]),
+      outcome,
+    })
   }
-  if (rows.length) dbOf(conn).insert(auditLog).values(rows).run()
 }
 
 /** Appends one audit row for a whole-record event (created, deleted, rejected …). */
-export function recordEvent(
-  conn: Conn,
-  change: Change,
-  outcome: AuditInsert['outcome'],
-  value?: unknown,
-): void {
-  dbOf(conn)
-    .insert(auditLog)
-    .values({ ...change, field: null, oldValue: null, newValue: value ?? null, outcome })
-    .run()
+export function recordEvent(conn: Conn, change: Change, outcome: AuditOutcome, value?: unknown): void {
+  insert(conn, { ...base(change), field: null, oldValue: null, newValue: json(value), outcome })
 }
 
 /** The audit trail of one record, newest first, with the author's name. */

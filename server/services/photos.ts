@@ -7,7 +7,7 @@ import { sha256Schema } from '#shared/schemas/sync'
 import type { AppContext } from '../context'
 import { AppError, notFound } from '../errors'
 import type { Actor } from '../middleware/auth'
-import { recordEvent } from '../repositories/syncAudit'
+import { recordEvent } from '../repositories/audit'
 import {
   closuresShowingPhoto,
   findPhoto,

@@ -11,7 +11,7 @@ import type { SyncTestHooks } from '../config'
 import type { AppContext } from '../context'
 import { AppError, notFound } from '../errors'
 import type { Actor } from '../middleware/auth'
-import { recordEvent } from '../repositories/syncAudit'
+import { recordEvent } from '../repositories/audit'
 import { SpliceWriteError } from '../repositories/splices'
 import {
   advanceSyncClient,
