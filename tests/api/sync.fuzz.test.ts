@@ -171,7 +171,20 @@ describe('bad input to push and pull', () => {
           for (const result of parsed.results) seen.add(result.status)
         },
       ),
-      { numRuns: 150 },
+      {
+        numRuns: 150,
+        // Always among the runs, whatever the seed: a repeated seq (duplicate) and a skipped one (gap).
+        examples: [
+          [
+            [
+              { name: 'addNote', args: {}, step: 1, baseServerSeq: 0 },
+              { name: 'addNote', args: {}, step: 0, baseServerSeq: 0 },
+            ],
+            false,
+          ],
+          [[{ name: 'addNote', args: {}, step: 2, baseServerSeq: 0 }], false],
+        ],
+      },
     )
     // The generator reaches the apply path: some changes apply, others are refused and quarantined.
     expect(seen).toEqual(new Set(['applied', 'rejected', 'duplicate', 'gap']))
