@@ -48,7 +48,7 @@ export interface TransportOptions {
 }
 
 export interface RequestSpec {
-  method: 'GET' | 'POST' | 'PUT' | 'HEAD'
+  method: 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE' | 'HEAD'
   path: string
   json?: unknown
   bytes?: ArrayBuffer
