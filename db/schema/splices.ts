@@ -63,6 +63,11 @@ export const splices = sqliteTable(
     index('splices_current_pair')
       .on(t.closureId, t.cableAId, t.fiberA, t.cableBId, t.fiberB)
       .where(sql`${t.isCurrent} = 1 AND ${t.deleted} = 0`),
+    // The other end's lookups of the same question (a fiber already spliced on its B side), so finding a
+    // splice's neighbours is four index probes rather than a walk over the closure's current splices.
+    index('splices_current_b_end')
+      .on(t.closureId, t.cableBId, t.fiberB)
+      .where(sql`${t.isCurrent} = 1 AND ${t.deleted} = 0`),
     index('splices_current_loss')
       .on(t.closureId, t.lossDb)
       .where(sql`${t.isCurrent} = 1 AND ${t.deleted} = 0`),

@@ -86,9 +86,9 @@ function statements(sqlite: Sqlite): Statements {
        FROM plan_rows WHERE closure_id = ? AND tray_id = ? AND slot = ? AND deleted = 0`,
     ),
     // Only the current splices that can raise fiber_reused or slot_reused for this one. With the five terms
-    // ORed in one WHERE, SQLite reads every current splice row of the closure (~40 µs a push at 200); split,
-    // the slot is a seek on splices_closure_slot and the fiber ends a scan of the closure's entries in the
-    // covering splices_current_pair index, so only the rows that match are read.
+    // ORed in one WHERE, SQLite reads every current splice row of the closure; split, the slot is a seek on
+    // splices_closure_slot and each fiber end a seek on splices_current_pair (A side) or splices_current_b_end
+    // (B side), so only the rows that match are read, however full the closure is.
     neighbours: sqlite.prepare(
       `SELECT id, closure_id AS closureId, tray_id AS trayId, slot, cable_a_id AS cableAId, fiber_a AS fiberA,
          cable_b_id AS cableBId, fiber_b AS fiberB
@@ -97,9 +97,16 @@ function statements(sqlite: Sqlite): Statements {
            SELECT rowid FROM splices WHERE closure_id = @closureId AND tray_id = @trayId AND slot = @slot
            UNION
            SELECT rowid FROM splices INDEXED BY splices_current_pair
-           WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0
-             AND ((cable_a_id = @cableAId AND fiber_a = @fiberA) OR (cable_a_id = @cableBId AND fiber_a = @fiberB)
-               OR (cable_b_id = @cableAId AND fiber_b = @fiberA) OR (cable_b_id = @cableBId AND fiber_b = @fiberB)))
+           WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0 AND cable_a_id = @cableAId AND fiber_a = @fiberA
+           UNION
+           SELECT rowid FROM splices INDEXED BY splices_current_pair
+           WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0 AND cable_a_id = @cableBId AND fiber_a = @fiberB
+           UNION
+           SELECT rowid FROM splices INDEXED BY splices_current_b_end
+           WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0 AND cable_b_id = @cableAId AND fiber_b = @fiberA
+           UNION
+           SELECT rowid FROM splices INDEXED BY splices_current_b_end
+           WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0 AND cable_b_id = @cableBId AND fiber_b = @fiberB)
          AND is_current = 1 AND deleted = 0 AND id <> @id
        ORDER BY rowid`,
     ),

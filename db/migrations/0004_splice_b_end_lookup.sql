@@ -1,0 +1,1 @@
+CREATE INDEX `splices_current_b_end` ON `splices` (`closure_id`,`cable_b_id`,`fiber_b`) WHERE "splices"."is_current" = 1 AND "splices"."deleted" = 0;
