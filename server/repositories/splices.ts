@@ -230,7 +230,7 @@ function statements(sqlite: Sqlite): Statements {
          over_target = over_target + @overTarget, over_maximum = over_maximum + @overMaximum,
          resplices = resplices + @resplices, photos = photos + @photos,
          loss_max = CASE
-           WHEN @oldLoss IS NOT NULL AND loss_max IS NOT NULL AND @oldLoss >= loss_max THEN
+           WHEN @anyLost = 1 OR (@oldLoss IS NOT NULL AND loss_max IS NOT NULL AND @oldLoss >= loss_max) THEN
              (SELECT ${milliDbSql('m.worst')} / 1000.0 FROM (SELECT max(loss_db) AS worst FROM splices
                WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0) m)
            WHEN @newLoss IS NOT NULL AND (loss_max IS NULL OR @newLoss > loss_max) THEN @newLoss
@@ -289,7 +289,7 @@ function lossPart(splice: JudgedSplice, limits: ProjectLimits) {
 export function insertSplice(
   conn: Conn,
   splice: SpliceInput,
-  options: { serverSeq: number; limits: ProjectLimits },
+  options: { serverSeq: number; limits: ProjectLimits; pending?: PendingTotals },
 ): InsertSpliceResult {
   const sqlite = rawSqlite(conn)
   const st = statements(sqlite)
@@ -392,8 +392,7 @@ export function insertSplice(
   const lost = removed
     ? lossPart(removed, limits)
     : { count: 0, milli: 0, overTarget: 0, overMaximum: 0, worst: null }
-  const changed = st.addToTotals.run({
-    closureId,
+  const delta: TotalsDelta = {
     logged,
     offPlan,
     mismatches,
@@ -406,11 +405,94 @@ export function insertSplice(
     photos: (st.hasPhoto.get(splice.id)?.has === 1 ? 1 : 0) - (oldHadPhoto ? 1 : 0),
     newLoss: gained.worst,
     oldLoss: lost.worst,
+    anyLost: 0,
     createdAt,
-  }).changes
+  }
+  if (options.pending) options.pending.stage(closureId, limits, delta)
+  else addToTotals(sqlite, closureId, limits, delta)
+  return { supersededId: old?.id ?? null, supersededWasCurrent: old?.isCurrent === 1 }
+}
+
+/** What one write adds to a closure's totals row (counts as differences, losses as their worst). */
+interface TotalsDelta {
+  logged: number
+  offPlan: number
+  mismatches: number
+  lossCount: number
+  lossMilli: number
+  overTarget: number
+  overMaximum: number
+  resplices: number
+  photos: number
+  /** The highest loss added, and the loss of the current splice taken away (null: none). */
+  newLoss: number | null
+  oldLoss: number | null
+  /** 1 when some splice with a loss stopped being current: loss_max is then read again from the rows. */
+  anyLost: 0 | 1
+  createdAt: string
+}
+
+function addToTotals(sqlite: Sqlite, closureId: string, limits: ProjectLimits, delta: TotalsDelta): void {
+  const changed = statements(sqlite).addToTotals.run({ closureId, ...delta }).changes
   // No totals row yet (the trigger makes one with every closure, so only in odd set-ups): build it from rows.
   if (changed === 0) recomputeClosureTotals(sqlite, closureId, limits)
-  return { supersededId: old?.id ?? null, supersededWasCurrent: old?.isCurrent === 1 }
+}
+
+const maxOf = (a: number | null, b: number | null) => (a === null ? b : b === null ? a : Math.max(a, b))
+
+/**
+ * The totals deltas of a push batch, written once per closure when the batch settles instead of once per
+ * splice: a totals row carries three board indexes, and rewriting them for every splice of a 100-splice batch
+ * was a sixth of the push. A mutation's deltas are staged while its savepoint is open and kept only when it
+ * is released, so a refused mutation leaves no trace here either. Every delta is worked out from rows, never
+ * from the totals row, so adding them up later gives the same row as adding them one by one.
+ */
+export class PendingTotals {
+  private readonly kept = new Map<string, { limits: ProjectLimits; delta: TotalsDelta }>()
+  private staged: Array<{ closureId: string; limits: ProjectLimits; delta: TotalsDelta }> = []
+
+  stage(closureId: string, limits: ProjectLimits, delta: TotalsDelta): void {
+    this.staged.push({ closureId, limits, delta })
+  }
+
+  /** The open mutation was applied: its deltas join the batch's. */
+  keepStaged(): void {
+    for (const { closureId, limits, delta } of this.staged) {
+      const sum = this.kept.get(closureId)
+      if (!sum) {
+        // A loss taken away is settled by reading the worst current one again, whatever the order.
+        const anyLost = delta.oldLoss !== null ? 1 : 0
+        this.kept.set(closureId, { limits, delta: { ...delta, oldLoss: null, anyLost } })
+        continue
+      }
+      const d = sum.delta
+      d.logged += delta.logged
+      d.offPlan += delta.offPlan
+      d.mismatches += delta.mismatches
+      d.lossCount += delta.lossCount
+      d.lossMilli += delta.lossMilli
+      d.overTarget += delta.overTarget
+      d.overMaximum += delta.overMaximum
+      d.resplices += delta.resplices
+      d.photos += delta.photos
+      d.newLoss = maxOf(d.newLoss, delta.newLoss)
+      if (delta.oldLoss !== null) d.anyLost = 1
+      if (delta.createdAt > d.createdAt) d.createdAt = delta.createdAt
+    }
+    this.staged = []
+  }
+
+  /** The open mutation was refused and its savepoint rolled back. */
+  dropStaged(): void {
+    this.staged = []
+  }
+
+  /** Writes the kept deltas, one statement per closure; the batch transaction must still be open. */
+  flush(conn: Conn): void {
+    const sqlite = rawSqlite(conn)
+    for (const [closureId, { limits, delta }] of this.kept) addToTotals(sqlite, closureId, limits, delta)
+    this.kept.clear()
+  }
 }
 
 function pairOf(pair: FiberPair): FiberPair {

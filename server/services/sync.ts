@@ -32,6 +32,7 @@ import {
   auditTargetOf,
   type BatchMemo,
   closureOfPayload,
+  deferrableTotals,
   newBatchMemo,
   refuse,
   refusalCodes,
@@ -100,7 +101,7 @@ interface Attempt {
 function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
   const { actor, clientId, mutation, at, memo } = work
   try {
-    return writeTransaction(ctx.database.sqlite, (serverSeq) => {
+    const result = writeTransaction(ctx.database.sqlite, (serverSeq): StoredResult => {
       ctx.config.syncTestHooks.beforeApply?.(mutation, index)
       // A device cannot have seen a change that does not exist yet; a base from the future would switch
       // conflict detection off and let a value be replaced without a trace.
@@ -124,8 +125,11 @@ function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
       )
       return { seq: mutation.seq, ...outcome, serverSeq }
     })
+    memo.totals.keepStaged()
+    return result
   } catch (error) {
     // The savepoint is gone, and with it any closure change the mutation made after the memo read it.
+    memo.totals.dropStaged()
     memo.closures.clear()
     const refusal = refusalOf(error)
     if (!refusal) throw error
@@ -203,6 +207,8 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
           results.push({ seq: rest.seq, status: 'gap', expectedSeq })
         break
       }
+      // Anything but a new splice may read or rebuild totals rows: the waiting deltas are written first.
+      if (!deferrableTotals.has(mutation.name)) memo.totals.flush(sqlite)
       const work: Attempt = { actor, clientId: input.clientId, mutation, at, memo }
       const result = attempt(ctx, work, index)
       if (result.status === 'rejected') quarantine(sqlite, work, result)
@@ -211,6 +217,7 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       results.push(publicResult(result))
       pauseForKill(hooks, index + 1, input.mutations.length)
     }
+    memo.totals.flush(sqlite)
     advanceSyncClient(sqlite, input.clientId, lastSeq, at)
     return { results, lastSeq }
   })
@@ -287,6 +294,7 @@ export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unkno
   const sqlite = ctx.database.sqlite
   const at = now()
   const run = sqlite.transaction(() => {
+    const memo = newBatchMemo()
     const result = attempt(
       ctx,
       {
@@ -301,10 +309,11 @@ export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unkno
           clientTime: at,
         },
         at,
-        memo: newBatchMemo(),
+        memo,
       },
       0,
     )
+    memo.totals.flush(sqlite)
     if (result.status !== 'rejected') {
       resolveRejected(sqlite, row.id, at)
       const target = auditTargetOf(row.name, row.args) ?? {

@@ -13,7 +13,7 @@ import { AppError } from '../errors'
 import type { Actor } from '../middleware/auth'
 import { type Change, recordEvent, recordFieldChanges } from '../repositories/audit'
 import { dbOf, recordsOf } from '../repositories/records'
-import { insertPhotoLink, insertSplice, loadProjectLimits } from '../repositories/splices'
+import { insertPhotoLink, insertSplice, loadProjectLimits, PendingTotals } from '../repositories/splices'
 import { tombstonePhotoLink, tombstoneSplice, updateSpliceFields } from '../repositories/spliceUpdates'
 import { closuresShowingPhoto, findPhoto } from '../repositories/photos'
 import {
@@ -81,11 +81,23 @@ export interface BatchMemo {
   trays: Map<string, TrayFacts | undefined>
   cables: Map<string, CableFacts | undefined>
   planRows: Map<string, SlottedPair | null>
+  /** Closure totals deltas of new splices, written when the batch settles (see settleTotals). */
+  totals: PendingTotals
 }
 
 export function newBatchMemo(): BatchMemo {
-  return { limits: new Map(), closures: new Map(), trays: new Map(), cables: new Map(), planRows: new Map() }
+  return {
+    limits: new Map(),
+    closures: new Map(),
+    trays: new Map(),
+    cables: new Map(),
+    planRows: new Map(),
+    totals: new PendingTotals(),
+  }
 }
+
+/** Mutations whose totals changes may wait for the end of the batch; any other first settles the waiting ones. */
+export const deferrableTotals: ReadonlySet<MutationName> = new Set(['createSplice', 'resplice'])
 
 /** The memoised value of `key`, read with `load` the first time (undefined and null are memoised too). */
 function memoised<K, V>(map: Map<K, V>, key: K, load: () => V): V {
@@ -237,7 +249,7 @@ function createSplice(env: ApplyEnv, args: unknown, name: 'createSplice' | 'resp
   insertSplice(
     env.conn,
     { ...input, flags: flagsFor(env, closure, limits, input), reviewState: null, createdAt: env.at },
-    { serverSeq: env.serverSeq, limits },
+    { serverSeq: env.serverSeq, limits, pending: env.memo.totals },
   )
   recordEvent(env.conn, change(env, 'splice', input.id), 'created', input)
   // The first splice starts the work on a closure.

@@ -10,6 +10,7 @@ import { closureRollup } from '../../../server/repositories/board'
 import {
   insertPhotoLink,
   insertSplice,
+  PendingTotals,
   recomputeClosureTotals,
   recomputeProjectTotals,
   type SpliceInput,
@@ -394,7 +395,67 @@ function runScenario(scenario: Scenario): void {
   expectParity(closureId, limits, 'after recomputeProjectTotals')
 }
 
+/**
+ * The same arrivals written the way a push batch writes them: several splices per transaction, each in a
+ * savepoint of its own, their totals deltas held back and written once when the batch settles; now and
+ * then a splice whose savepoint is rolled back after its deltas were staged (a refused mutation).
+ */
+function runBatchedScenario(scenario: Scenario, batchSizes: number[], refusedAt: number[]): void {
+  const { limits } = scenario
+  const fixture = buildProject(database, { trays: scenario.trays, limits })
+  const { closureId } = fixture
+  const plan = validPlan(fixture, scenario)
+  writeTransaction(database.sqlite, (serverSeq) => {
+    for (const row of plan) addPlanRow(database, { closureId, ...row }, serverSeq)
+    recomputeClosureTotals(database.sqlite, closureId, limits)
+  })
+  const splices = buildSplices(fixture, scenario, plan)
+  const order = arrivalOrder(splices)
+  const refused = new Set(refusedAt.map((n) => n % (order.length + 1)))
+  let step = 0
+  for (let b = 0; step < order.length; b += 1) {
+    const size = 1 + ((batchSizes[b % Math.max(1, batchSizes.length)] ?? 0) % 8)
+    const pending = new PendingTotals()
+    const first = step
+    writeTransaction(database.sqlite, () => {
+      for (; step < Math.min(first + size, order.length); step += 1) {
+        const { priority: _p, parent: _q, ...splice } = splices[order[step] as number]!
+        if (refused.has(step)) {
+          // Staged, then thrown away with its savepoint: the totals must not keep any of it.
+          expect(() =>
+            writeTransaction(database.sqlite, (serverSeq) => {
+              insertSplice(database.sqlite, { ...splice, id: v7() }, { serverSeq, limits, pending })
+              throw new Error('refused after writing')
+            }),
+          ).toThrow('refused after writing')
+          pending.dropStaged()
+        }
+        writeTransaction(database.sqlite, (serverSeq) =>
+          insertSplice(database.sqlite, splice, { serverSeq, limits, pending }),
+        )
+        pending.keepStaged()
+      }
+      pending.flush(database.sqlite)
+    })
+    expectParity(closureId, limits, `after the batch ending at step ${step}`)
+  }
+}
+
 describe('closure_totals against the shared rollUpClosure', () => {
+  it('when splices arrive in push batches with deferred totals and refused attempts, then the row equals rollUpClosure', () => {
+    const batched = fc.record({
+      scenario: scenarioArb,
+      batchSizes: fc.array(fc.nat(), { minLength: 1, maxLength: 6 }),
+      refusedAt: fc.array(fc.nat(), { maxLength: 4 }),
+    })
+    fc.assert(
+      fc.property(batched, ({ scenario, batchSizes, refusedAt }) =>
+        runBatchedScenario(scenario, batchSizes, refusedAt),
+      ),
+      { numRuns: 150 },
+    )
+  })
+
   it('when splices, re-splices and photos arrive in any valid order, then both paths equal rollUpClosure', () => {
     fc.assert(fc.property(scenarioArb, runScenario), { numRuns: 200 })
   })
