@@ -29,6 +29,16 @@ function confirm(title: string, message: string, ok: string): Promise<boolean> {
 }
 
 /**
+ * Runs `work` while holding the device-wide refresh lock, so two tabs never present the same refresh cookie
+ * at once (the server takes a second use of a spent token for theft and ends the session). The cookie is
+ * shared, so the tab that waits presents the one the first tab's refresh left behind.
+ */
+function acrossTabs<T>(work: () => Promise<T>): Promise<T> {
+  if (typeof navigator === 'undefined' || !navigator.locks) return work()
+  return navigator.locks.request('lightseam-refresh', work) as Promise<T>
+}
+
+/**
  * Who is signed in on this device. The access token lives in memory only; the user is remembered in
  * localStorage so the app opens offline showing who is signed in, and their device database with it.
  */
@@ -60,7 +70,7 @@ export const useSessionStore = defineStore('session', () => {
    * One request at a time: the refresh token rotates, and sending a spent one twice revokes the session.
    */
   function refresh(): Promise<string | null> {
-    refreshing ??= refreshOnce().finally(() => {
+    refreshing ??= acrossTabs(refreshOnce).finally(() => {
       refreshing = null
     })
     return refreshing
