@@ -11,14 +11,14 @@ import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
 import { syncRouter } from './routes/sync'
-import { createLocalDiskStorage } from './storage/index'
+import { createPhotoStorage } from './storage/index'
 import { serveApp } from './static'
 
 /** Builds the Express app around a context; never listens, so tests can drive it directly. */
 export function createApp(deps: AppDeps): Express {
   const ctx: AppContext = {
     ...deps,
-    storage: deps.storage ?? createLocalDiskStorage(deps.config.photoDir),
+    storage: deps.storage ?? createPhotoStorage(deps.config),
     registeredRoutes: new Set(),
   }
   const app = express()

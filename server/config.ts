@@ -25,7 +25,31 @@ const envSchema = z.object({
     .max(100 * 1024 * 1024)
     .default(15 * 1024 * 1024),
   LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION: z.coerce.number().int().min(1).optional(),
+  // Photo store: the local disk (embedded default) or an S3 bucket.
+  LIGHTSEAM_STORAGE: z.enum(['disk', 's3']).default('disk'),
+  LIGHTSEAM_S3_BUCKET: z.string().min(3).max(63).optional(),
+  LIGHTSEAM_S3_REGION: z.string().min(1).default('us-east-1'),
+  LIGHTSEAM_S3_ENDPOINT: z.url({ protocol: /^https?$/ }).optional(),
+  LIGHTSEAM_S3_ACCESS_KEY_ID: z.string().min(1).optional(),
+  LIGHTSEAM_S3_SECRET_ACCESS_KEY: z.string().min(1).optional(),
+  LIGHTSEAM_S3_PREFIX: z
+    .string()
+    .regex(/^([A-Za-z0-9._-]+\/)*$/, 'must be empty or folder names each ending in /')
+    .default(''),
 })
+
+/** Where photo bytes are kept. */
+export type PhotoStoreConfig =
+  | { driver: 'disk' }
+  | {
+      driver: 's3'
+      bucket: string
+      region: string
+      endpoint?: string
+      accessKeyId?: string
+      secretAccessKey?: string
+      prefix: string
+    }
 
 /** Hooks the sync tests use to make the push fail or stop at a chosen point; inert unless set. */
 export interface SyncTestHooks {
@@ -55,6 +79,8 @@ export interface Config {
   photoDir: string
   /** The largest photo upload accepted, in bytes. */
   photoMaxBytes: number
+  /** Which photo store the app uses (photoDir is the disk driver's folder). */
+  photoStore: PhotoStoreConfig
   /** Inert in production: the env hook is refused unless NODE_ENV=test; tests may set beforeApply. */
   syncTestHooks: SyncTestHooks
 }
@@ -74,6 +100,27 @@ function loadSecret(given: string | undefined, dataDir: string): Uint8Array {
   const secret = readFileSync(file, 'utf8').trim()
   if (Buffer.byteLength(secret) < 32) throw new ConfigError(`${file} holds a secret shorter than 32 bytes.`)
   return new TextEncoder().encode(secret)
+}
+
+function photoStoreOf(e: z.infer<typeof envSchema>): PhotoStoreConfig {
+  if (e.LIGHTSEAM_STORAGE === 'disk') return { driver: 'disk' }
+  if (!e.LIGHTSEAM_S3_BUCKET)
+    throw new ConfigError('Lightseam cannot start: LIGHTSEAM_STORAGE=s3 needs LIGHTSEAM_S3_BUCKET.')
+  if (Boolean(e.LIGHTSEAM_S3_ACCESS_KEY_ID) !== Boolean(e.LIGHTSEAM_S3_SECRET_ACCESS_KEY)) {
+    throw new ConfigError(
+      'Lightseam cannot start: set both LIGHTSEAM_S3_ACCESS_KEY_ID and LIGHTSEAM_S3_SECRET_ACCESS_KEY, or ' +
+        'neither (the AWS SDK then finds credentials itself).',
+    )
+  }
+  return {
+    driver: 's3',
+    bucket: e.LIGHTSEAM_S3_BUCKET,
+    region: e.LIGHTSEAM_S3_REGION,
+    endpoint: e.LIGHTSEAM_S3_ENDPOINT,
+    accessKeyId: e.LIGHTSEAM_S3_ACCESS_KEY_ID,
+    secretAccessKey: e.LIGHTSEAM_S3_SECRET_ACCESS_KEY,
+    prefix: e.LIGHTSEAM_S3_PREFIX,
+  }
 }
 
 /** Parses the environment once; a bad value stops the server with a message naming the variable. */
@@ -106,6 +153,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     signInLimits: { windowMs: 15 * 60_000, perAccount: 5, perAddress: 30 },
     photoDir: resolve(e.LIGHTSEAM_PHOTO_DIR ?? resolve(dataDir, 'photos')),
     photoMaxBytes: e.LIGHTSEAM_PHOTO_MAX_BYTES,
+    photoStore: photoStoreOf(e),
     syncTestHooks: { pauseAfterMutation: e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION ?? null },
     ...overrides,
   }

@@ -1,4 +1,11 @@
+import { join } from 'node:path'
 import type { Readable } from 'node:stream'
+import type { Config } from '../config'
+import { createLocalDiskStorage } from './localDisk'
+import { createS3Storage } from './s3'
+
+export { createLocalDiskStorage } from './localDisk'
+export { createS3Storage, type S3StorageOptions } from './s3'
 
 /**
  * Where photo bytes live, behind the routes and services: the embedded default is the local disk; an object
@@ -18,4 +25,9 @@ export interface PhotoStorage {
   remove(key: string): Promise<void>
 }
 
-export { createLocalDiskStorage } from './localDisk'
+/** The store the configuration names: the local disk unless LIGHTSEAM_STORAGE=s3. */
+export function createPhotoStorage(config: Config): PhotoStorage {
+  const store = config.photoStore
+  if (store.driver === 'disk') return createLocalDiskStorage(config.photoDir)
+  return createS3Storage({ ...store, tempDir: join(config.dataDir, 'upload-tmp') })
+}

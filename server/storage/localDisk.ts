@@ -25,8 +25,9 @@ export function createLocalDiskStorage(root: string): PhotoStorage {
   return {
     tempDir,
     async has(key) {
+      const path = pathOf(key)
       try {
-        await access(pathOf(key))
+        await access(path)
         return true
       } catch {
         return false

@@ -1,0 +1,205 @@
+import { mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs'
+import { tmpdir } from 'node:os'
+import { join } from 'node:path'
+import type { Readable } from 'node:stream'
+import S3rver from 's3rver'
+import request from 'supertest'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { ConfigError, loadConfig } from '../../server/config'
+import { createLocalDiskStorage, createS3Storage, type PhotoStorage } from '../../server/storage/index'
+import { makeTestApp, type TestApp } from './support/app'
+import { jpegBytes, sha256, upload } from './support/photos'
+import { closureId, mutation, newClientId, pushOk } from './support/sync'
+
+// Both photo stores behind one interface: the local disk (embedded default) and S3, here a fake S3 server on
+// 127.0.0.1 started by the test. The same contract runs against each, then the photo routes run over S3.
+
+const bucket = 'lightseam-photos'
+let fakeS3: S3rver
+let s3Endpoint: string
+const folders: string[] = []
+const folder = () => {
+  const dir = mkdtempSync(join(tmpdir(), 'lightseam-storage-'))
+  folders.push(dir)
+  return dir
+}
+
+beforeAll(async () => {
+  fakeS3 = new S3rver({
+    address: '127.0.0.1',
+    port: 0,
+    silent: true,
+    directory: folder(),
+    configureBuckets: [{ name: bucket, configs: [] }],
+  })
+  const address = await fakeS3.run()
+  s3Endpoint = `http://127.0.0.1:${address.port}`
+})
+
+afterAll(async () => {
+  await fakeS3?.close()
+  for (const dir of folders) rmSync(dir, { recursive: true, force: true })
+})
+
+// s3rver takes any key pair it is given; its own defaults are used here.
+const s3Options = (prefix = 'field/') => ({
+  bucket,
+  region: 'us-east-1',
+  endpoint: s3Endpoint,
+  accessKeyId: 'S3RVER',
+  secretAccessKey: 'S3RVER',
+  prefix,
+})
+
+async function bytesOf(stream: Readable): Promise<Buffer> {
+  const parts: Buffer[] = []
+  for await (const part of stream) parts.push(Buffer.from(part as Uint8Array))
+  return Buffer.concat(parts)
+}
+
+const drivers: Array<[string, () => PhotoStorage]> = [
+  ['local disk', () => createLocalDiskStorage(folder())],
+  ['S3', () => createS3Storage({ ...s3Options(), tempDir: folder() })],
+]
+
+describe.each(drivers)('the %s photo store', (_name, make) => {
+  it('when verified bytes are put, then they are there under the returned key, read back whole, and removable', async () => {
+    const store = make()
+    const bytes = jpegBytes(64, 48, 200_000)
+    const hash = sha256(bytes)
+    const temp = join(store.tempDir, 'upload.part')
+    writeFileSync(temp, bytes)
+    const key = await store.put(hash, temp)
+    expect(key.endsWith(`${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`)).toBe(true)
+    // The temp file is consumed by the put.
+    expect(readdirSync(store.tempDir)).toEqual([])
+    expect(await store.has(key)).toBe(true)
+    expect((await bytesOf(await store.read(key))).equals(bytes)).toBe(true)
+    await store.remove(key)
+    expect(await store.has(key)).toBe(false)
+    await expect(store.read(key)).rejects.toThrow()
+    // Removing what is gone is not an error.
+    await store.remove(key)
+  })
+
+  it('when a key is not of the store, then it is refused before any storage call', async () => {
+    const store = make()
+    await expect(store.has('../../etc/passwd')).rejects.toThrow(/bad photo key/)
+    await expect(store.read('photos/zz/zz/not-a-hash')).rejects.toThrow()
+    await expect(store.put('not-a-hash', join(store.tempDir, 'x'))).rejects.toThrow(/sha256/)
+  })
+
+  it('when the same hash is put twice, then the second put is harmless and the bytes stay right', async () => {
+    const store = make()
+    const bytes = jpegBytes(32, 32, 1000)
+    const hash = sha256(bytes)
+    const keys = await Promise.all(
+      ['a.part', 'b.part'].map((name) => {
+        const temp = join(store.tempDir, name)
+        writeFileSync(temp, bytes)
+        return store.put(hash, temp)
+      }),
+    )
+    expect(keys[0]).toBe(keys[1])
+    expect((await bytesOf(await store.read(keys[0]!))).equals(bytes)).toBe(true)
+  })
+})
+
+describe('the photo routes over S3', () => {
+  let t: TestApp
+  beforeAll(() => {
+    t = makeTestApp({ photoStore: { driver: 's3', ...s3Options('app/') } })
+  })
+  afterAll(() => t.close())
+
+  it('when a photo is uploaded, then it lives in the bucket and HEAD and GET answer from there', async () => {
+    const bytes = jpegBytes(800, 600, 50_000)
+    const hash = sha256(bytes)
+    expect((await upload(t, 'splicer', bytes)).status).toBe(201)
+    const auth = await t.tokenFor('splicer')
+    // Reading needs a record showing the photo: a link to the demo closure, pushed as a device would.
+    await pushOk(t, 'splicer', newClientId(), [
+      mutation(1, 'addPhotoLink', {
+        id: newClientId(),
+        sha256: hash,
+        entity: 'closure',
+        entityId: closureId(t, 'VLT-01'),
+      }),
+    ])
+    expect((await request(t.app).head(`/api/photos/${hash}`).set('Authorization', auth)).status).toBe(200)
+    const got = await request(t.app)
+      .get(`/api/photos/${hash}`)
+      .set('Authorization', auth)
+      .buffer(true)
+      .parse((res, done) => {
+        const parts: Buffer[] = []
+        res.on('data', (part: Buffer) => parts.push(part))
+        res.on('end', () => done(null, Buffer.concat(parts)))
+      })
+    expect(got.status).toBe(200)
+    expect((got.body as Buffer).equals(bytes)).toBe(true)
+    // The object is in the bucket under the configured prefix, straight from a second client.
+    const direct = createS3Storage({ ...s3Options('app/'), tempDir: folder() })
+    expect(await direct.has(`app/photos/${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`)).toBe(true)
+    // Again: idempotent, nothing new stored.
+    expect([200, 201]).toContain((await upload(t, 'splicer', bytes)).status)
+    expect(readdirSync(t.ctx.storage.tempDir)).toEqual([])
+  })
+
+  it('when a photo fails a check, then nothing reaches the bucket', async () => {
+    const bytes = jpegBytes(100, 100, 2000)
+    const wrongHash = sha256(Buffer.from('other bytes'))
+    const refused = await upload(t, 'splicer', bytes, 'image/jpeg', wrongHash)
+    expect(refused.status).toBe(422)
+    const direct = createS3Storage({ ...s3Options('app/'), tempDir: folder() })
+    const key = (hash: string) => `app/photos/${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`
+    expect(await direct.has(key(wrongHash))).toBe(false)
+    expect(await direct.has(key(sha256(bytes)))).toBe(false)
+  })
+})
+
+describe('photo store configuration', () => {
+  const base = { NODE_ENV: 'test' as const, LIGHTSEAM_DATA_DIR: folder() }
+  const secret = { jwtSecret: new TextEncoder().encode('x'.repeat(40)) }
+
+  it('when nothing is set, then photos go to the local disk', () => {
+    expect(loadConfig(base, secret).photoStore).toEqual({ driver: 'disk' })
+  })
+
+  it('when S3 is chosen without a bucket or with half a key pair, then the server refuses to start, naming it', () => {
+    expect(() => loadConfig({ ...base, LIGHTSEAM_STORAGE: 's3' }, secret)).toThrow(ConfigError)
+    expect(() => loadConfig({ ...base, LIGHTSEAM_STORAGE: 's3' }, secret)).toThrow(/LIGHTSEAM_S3_BUCKET/)
+    expect(() =>
+      loadConfig(
+        { ...base, LIGHTSEAM_STORAGE: 's3', LIGHTSEAM_S3_BUCKET: bucket, LIGHTSEAM_S3_ACCESS_KEY_ID: 'a' },
+        secret,
+      ),
+    ).toThrow(/LIGHTSEAM_S3_SECRET_ACCESS_KEY/)
+    expect(() => loadConfig({ ...base, LIGHTSEAM_STORAGE: 'ftp' }, secret)).toThrow(/LIGHTSEAM_STORAGE/)
+    expect(() =>
+      loadConfig(
+        { ...base, LIGHTSEAM_STORAGE: 's3', LIGHTSEAM_S3_BUCKET: bucket, LIGHTSEAM_S3_ENDPOINT: 'nope' },
+        secret,
+      ),
+    ).toThrow(/LIGHTSEAM_S3_ENDPOINT/)
+  })
+
+  it('when S3 is configured, then the settings reach the driver as given', () => {
+    const config = loadConfig(
+      {
+        ...base,
+        LIGHTSEAM_STORAGE: 's3',
+        LIGHTSEAM_S3_BUCKET: bucket,
+        LIGHTSEAM_S3_ENDPOINT: s3Endpoint,
+        LIGHTSEAM_S3_PREFIX: 'corvell/',
+      },
+      secret,
+    )
+    expect(config.photoStore).toMatchObject({
+      driver: 's3',
+      bucket,
+      endpoint: s3Endpoint,
+      prefix: 'corvell/',
+    })
+  })
+})
