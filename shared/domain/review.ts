@@ -12,8 +12,8 @@ export type ReviewVerdict = 'accepted' | 'sent_back'
 export type ReviewedSplice = AssessedSplice &
   Pick<Splice, 'respliceReason' | 'splicerId'> & { reviewState: ReviewVerdict | null }
 
-export type ReviewItem = {
-  splice: ReviewedSplice
+export type ReviewItem<S extends ReviewedSplice = ReviewedSplice> = {
+  splice: S
   flags: SpliceFlag[]
   /** What the foreman should do about it, one line per flag that asks for action. */
   advice: string[]
@@ -62,14 +62,14 @@ function adviceFor(flag: SpliceFlag, splice: ReviewedSplice, limits: ProjectLimi
  * The splices of a closure that need the foreman: every current splice whose checks ask for review,
  * judged with the shared acceptance rules against the plan and the closure's other current splices.
  */
-export function reviewItems(
+export function reviewItems<S extends ReviewedSplice>(
   plan: readonly SlottedPair[],
-  splices: readonly ReviewedSplice[],
+  splices: readonly S[],
   limits: ProjectLimits,
-): ReviewItem[] {
+): ReviewItem<S>[] {
   const current = currentAttempts(splices)
   const rowBySlot = new Map(plan.map((row) => [slotKey(row.trayId, row.slot), row]))
-  const items: ReviewItem[] = []
+  const items: ReviewItem<S>[] = []
   for (const splice of current) {
     const assessment = assessSplice(splice, limits, {
       planRow: rowBySlot.get(slotKey(splice.trayId, splice.slot)) ?? null,
