@@ -268,11 +268,20 @@ export function setCrewDay(ctx: AppContext, actor: Actor, crewId: unknown, body:
   const found = input.closureIds.length
     ? db.select().from(closures).where(inArray(closures.id, input.closureIds)).all()
     : []
+  // A signed-off closure already on the day may stay and move; it cannot be put on anyone's day anew.
+  const onDay = new Set(
+    db
+      .select({ closureId: closureAssignments.closureId })
+      .from(closureAssignments)
+      .where(and(eq(closureAssignments.userId, input.userId), eq(closureAssignments.deleted, false)))
+      .all()
+      .map((row) => row.closureId),
+  )
   input.closureIds.forEach((id, i) => {
     const closure = found.find((row) => row.id === id)
     if (!closure || closure.deleted || closure.crewId !== crew)
       problems.push({ path: `closureIds.${i}`, message: 'Not a closure of this crew.' })
-    else if (closure.state === 'signed_off')
+    else if (closure.state === 'signed_off' && !onDay.has(closure.id))
       problems.push({ path: `closureIds.${i}`, message: `${closure.label} is signed off; reopen it first.` })
   })
   if (problems.length) throw new AppError('invalid_input', 'The day cannot be set.', 400, problems)

@@ -81,7 +81,7 @@ export function reviewItems<S extends ReviewedSplice>(
     const advice = flags.flatMap((flag) => adviceFor(flag, splice, limits) ?? [])
     if (flags.includes('resplice'))
       advice.push(
-        `Made again (attempt ${splice.attempt}); reason on record: ${splice.respliceReason ?? 'none'}.`,
+        `Made again (attempt ${splice.attempt}); reason on record: ${splice.respliceReason?.replace(/_/g, ' ') ?? 'none'}.`,
       )
     const explained = flags.every((flag) => selfExplained.has(flag))
     items.push({

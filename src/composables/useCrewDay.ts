@@ -1,4 +1,4 @@
-import { ref, shallowRef } from 'vue'
+import { ref, shallowRef, watch } from 'vue'
 import { api, failureMessage } from '@/api/http'
 import { device } from '@/boot/sync'
 import { useSessionStore } from '@/stores/session'
@@ -37,6 +37,9 @@ export function useCrewDay() {
   const message = ref<string | null>(null)
   const saving = ref<string | null>(null)
   const today = new Date().toISOString().slice(0, 10)
+  /** The day production is shown for (UTC day of the device time, as the server counts it). */
+  const date = ref(today)
+  let projectIds: string[] = []
 
   async function load() {
     const crewId = session.user?.crewId
@@ -56,20 +59,28 @@ export function useCrewDay() {
     try {
       const day = (await api('GET', `/api/crews/${crewId}/day`)) as { members: DayMember[] }
       members.value = day.members
-      const projectIds = [...new Set(onDevice.map((c) => c.projectId))]
-      const rows: ProductionRow[] = []
-      for (const projectId of projectIds) {
-        const answer = (await api('GET', `/api/projects/${projectId}/production`, {
-          query: { from: today },
-        })) as { items: ProductionRow[] }
-        rows.push(...answer.items)
-      }
-      production.value = rows
+      projectIds = [...new Set(onDevice.map((c) => c.projectId))]
+      await loadProduction()
       message.value = null
     } catch (error) {
       message.value = failureMessage(error)
     }
   }
+
+  async function loadProduction() {
+    const rows: ProductionRow[] = []
+    for (const projectId of projectIds) {
+      const answer = (await api('GET', `/api/projects/${projectId}/production`, {
+        query: { from: date.value },
+      })) as { items: ProductionRow[] }
+      rows.push(...answer.items)
+    }
+    production.value = rows
+  }
+  watch(date, () => {
+    if (!navigator.onLine) return void (message.value = offlineWords)
+    loadProduction().catch((error: unknown) => (message.value = failureMessage(error)))
+  })
 
   /** Saves one member's ordered list; resolves an error message, or null when saved. */
   async function save(userId: string, closureIds: string[]): Promise<string | null> {
@@ -92,5 +103,5 @@ export function useCrewDay() {
   }
 
   void load()
-  return { members, closures, production, message, saving, today, load, save }
+  return { members, closures, production, message, saving, today, date, load, save }
 }

@@ -219,6 +219,7 @@ export interface RejectedChange {
   userId: string
   closureId: string | null
   resolvedAt: string | null
+  args?: Record<string, unknown>
 }
 
 /** Changes the server refused about one closure (online only), and the one action that applies one. */

@@ -23,8 +23,8 @@ export const routes: RouteRecordRaw[] = [
         path: '',
         name: 'closures',
         component: () => import('@/pages/ClosuresPage.vue'),
-        meta: { title: 'Closures', roles: fieldRoles },
-        // The inspector records nothing in the field: their first screen is the signed-off record.
+        // The inspector passes the role check only to be sent on: their first screen is the signed-off record.
+        meta: { title: 'Closures', roles: [...fieldRoles, 'inspector'] },
         beforeEnter: () => (useSessionStore().user?.role === 'inspector' ? { name: 'inspect' } : true),
       },
       {
