@@ -80,6 +80,9 @@ export const policy = {
   'GET /api/crews': { roles: leads, scope: 'none' },
   'POST /api/crews': { roles: office, scope: 'none' },
   'PATCH /api/crews/:crewId': { roles: office, scope: 'none' },
+  // A crew's day: each member's closures in order; a foreman reads and sets their own crew's only.
+  'GET /api/crews/:crewId/day': { roles: leads, scope: 'closure' },
+  'PUT /api/crews/:crewId/day': { roles: leads, scope: 'closure' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

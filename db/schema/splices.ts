@@ -46,6 +46,10 @@ export const splices = sqliteTable(
     isCurrent: integer('is_current', { mode: 'boolean' }).notNull().default(true),
     flags: text('flags', { mode: 'json' }).$type<string[]>().notNull().default([]),
     reviewState: text('review_state', { enum: reviewStates }),
+    // Why the foreman accepted the splice or sent it back, who did and when (server time); cleared with the state.
+    reviewReason: text('review_reason'),
+    reviewedBy: text('reviewed_by').references(() => users.id),
+    reviewedAt: text('reviewed_at'),
     createdAt: text('created_at').notNull(),
     serverSeq: serverSeq(),
     deleted: deleted(),

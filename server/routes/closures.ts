@@ -28,6 +28,12 @@ export function closuresRouter(ctx: AppContext): Router {
   route(ctx, router, 'PUT /api/closures/:closureId/assignment', (req, res) => {
     res.json(closures.assignClosure(ctx, res.locals.actor, req.params.closureId, req.body))
   })
+  route(ctx, router, 'GET /api/crews/:crewId/day', (req, res) => {
+    res.json(closures.crewDay(ctx, res.locals.actor, req.params.crewId))
+  })
+  route(ctx, router, 'PUT /api/crews/:crewId/day', (req, res) => {
+    res.json(closures.setCrewDay(ctx, res.locals.actor, req.params.crewId, req.body))
+  })
   route(ctx, router, 'GET /api/closures/:closureId/rollup', (req, res) => {
     res.json(reports.rollup(ctx, res.locals.actor, req.params.closureId))
   })

@@ -1,7 +1,7 @@
 import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import { z } from 'zod'
 import { writeTransaction } from '#db/client'
-import { closureAssignments, closures, planRows, splices, trays, users } from '#db/schema/index'
+import { closureAssignments, closures, crews, planRows, splices, trays, users } from '#db/schema/index'
 import {
   closureCreateSchema,
   closureKindSchema,
@@ -162,7 +162,9 @@ export function assignClosure(ctx: AppContext, actor: Actor, closureId: unknown,
           .run()
       }
     }
-    input.splicerIds.forEach((userId, position) => {
+    // position is the closure's place in each splicer's day: a splicer new to the closure gets it last.
+    input.splicerIds.forEach((userId) => {
+      const position = dayEnd(tx, userId)
       tx.insert(closureAssignments)
         .values({
           closureId: closure.id,
@@ -174,13 +176,165 @@ export function assignClosure(ctx: AppContext, actor: Actor, closureId: unknown,
         })
         .onConflictDoUpdate({
           target: [closureAssignments.closureId, closureAssignments.userId],
-          set: { position, assignedBy: actor.id, assignedAt: now(), serverSeq: seq, deleted: false },
+          set: {
+            position: sql`CASE WHEN ${closureAssignments.deleted} THEN ${position} ELSE ${closureAssignments.position} END`,
+            assignedBy: actor.id,
+            assignedAt: now(),
+            serverSeq: seq,
+            deleted: false,
+          },
         })
         .run()
     })
     recordFieldChanges(tx, change, { splicers: before }, { splicers: input.splicerIds })
     return getAssignment(ctx, closure.id)
   })
+}
+
+/** One past the last place in a user's day. */
+function dayEnd(db: ReturnType<typeof dbOf>, userId: string): number {
+  const row = db
+    .select({ max: sql<number | null>`max(${closureAssignments.position})` })
+    .from(closureAssignments)
+    .where(and(eq(closureAssignments.userId, userId), eq(closureAssignments.deleted, false)))
+    .get()
+  return (row?.max ?? 0) + 1
+}
+
+export const daySchema = z
+  .object({
+    /** The crew member whose day this is. */
+    userId: idSchema,
+    /** The closures they work, in the order of the day; closures left out are taken off their list. */
+    closureIds: z.array(idSchema).max(200),
+  })
+  .strict()
+
+function assertLeadsCrew(actor: Actor, crewId: unknown): string {
+  if (!isUuid(crewId)) throw notFound('The crew')
+  if (actor.role === 'office') return crewId
+  if (actor.role === 'foreman' && actor.crewId === crewId) return crewId
+  throw notFound('The crew')
+}
+
+/** Each member of a crew with the closures of their day in order (open closures of the crew only). */
+export function crewDay(ctx: AppContext, actor: Actor, crewId: unknown) {
+  const crew = assertLeadsCrew(actor, crewId)
+  const db = ctx.database.db
+  if (!db.select({ id: crews.id }).from(crews).where(eq(crews.id, crew)).get()) throw notFound('The crew')
+  const members = db
+    .select({ id: users.id, name: users.name, role: users.role })
+    .from(users)
+    .where(and(eq(users.crewId, crew), eq(users.active, true), inArray(users.role, ['splicer', 'foreman'])))
+    .orderBy(asc(users.name))
+    .all()
+  const rows = db
+    .select({
+      userId: closureAssignments.userId,
+      closureId: closures.id,
+      label: closures.label,
+      state: closures.state,
+      position: closureAssignments.position,
+    })
+    .from(closureAssignments)
+    .innerJoin(closures, eq(closures.id, closureAssignments.closureId))
+    .where(and(eq(closures.crewId, crew), eq(closureAssignments.deleted, false), eq(closures.deleted, false)))
+    .orderBy(asc(closureAssignments.position), asc(closures.label))
+    .all()
+  return {
+    crewId: crew,
+    members: members.map((member) => ({
+      ...member,
+      closures: rows
+        .filter((row) => row.userId === member.id)
+        .map(({ closureId, label, state, position }) => ({ closureId, label, state, position })),
+    })),
+  }
+}
+
+/** Sets one crew member's day: the closures they work and in which order (positions 1, 2, …). */
+export function setCrewDay(ctx: AppContext, actor: Actor, crewId: unknown, body: unknown) {
+  const crew = assertLeadsCrew(actor, crewId)
+  const input = daySchema.parse(body)
+  const db = ctx.database.db
+  const member = db.select().from(users).where(eq(users.id, input.userId)).get()
+  const problems: { path: string; message: string }[] = []
+  if (!member || !member.active || member.crewId !== crew)
+    problems.push({ path: 'userId', message: 'Not an active member of this crew.' })
+  else if (member.role !== 'splicer' && member.role !== 'foreman')
+    problems.push({ path: 'userId', message: `${member.name} is not field crew.` })
+  if (new Set(input.closureIds).size !== input.closureIds.length)
+    problems.push({ path: 'closureIds', message: 'A closure is listed twice.' })
+  const found = input.closureIds.length
+    ? db.select().from(closures).where(inArray(closures.id, input.closureIds)).all()
+    : []
+  // A signed-off closure already on the day may stay and move; it cannot be put on anyone's day anew.
+  const onDay = new Set(
+    db
+      .select({ closureId: closureAssignments.closureId })
+      .from(closureAssignments)
+      .where(and(eq(closureAssignments.userId, input.userId), eq(closureAssignments.deleted, false)))
+      .all()
+      .map((row) => row.closureId),
+  )
+  input.closureIds.forEach((id, i) => {
+    const closure = found.find((row) => row.id === id)
+    if (!closure || closure.deleted || closure.crewId !== crew)
+      problems.push({ path: `closureIds.${i}`, message: 'Not a closure of this crew.' })
+    else if (closure.state === 'signed_off' && !onDay.has(closure.id))
+      problems.push({ path: `closureIds.${i}`, message: `${closure.label} is signed off; reopen it first.` })
+  })
+  if (problems.length) throw new AppError('invalid_input', 'The day cannot be set.', 400, problems)
+
+  writeTransaction(ctx.database.sqlite, (seq) => {
+    const tx = dbOf(ctx.database.sqlite)
+    const current = tx
+      .select()
+      .from(closureAssignments)
+      .where(eq(closureAssignments.userId, input.userId))
+      .all()
+    const before = current
+      .filter((row) => !row.deleted)
+      .sort((a, b) => a.position - b.position)
+      .map((row) => row.closureId)
+    if (JSON.stringify(before) === JSON.stringify(input.closureIds)) return
+    const at = now()
+    for (const row of current) {
+      if (row.deleted || input.closureIds.includes(row.closureId)) continue
+      tx.update(closureAssignments)
+        .set({ deleted: true, serverSeq: seq })
+        .where(
+          and(eq(closureAssignments.closureId, row.closureId), eq(closureAssignments.userId, row.userId)),
+        )
+        .run()
+    }
+    input.closureIds.forEach((closureId, i) => {
+      const position = i + 1
+      const had = current.find((row) => row.closureId === closureId)
+      if (had && !had.deleted && had.position === position) return
+      tx.insert(closureAssignments)
+        .values({
+          closureId,
+          userId: input.userId,
+          position,
+          assignedBy: actor.id,
+          assignedAt: at,
+          serverSeq: seq,
+        })
+        .onConflictDoUpdate({
+          target: [closureAssignments.closureId, closureAssignments.userId],
+          set: { position, assignedBy: actor.id, assignedAt: at, serverSeq: seq, deleted: false },
+        })
+        .run()
+    })
+    recordFieldChanges(
+      tx,
+      { userId: actor.id, entity: 'user', entityId: input.userId, at },
+      { day: before },
+      { day: input.closureIds },
+    )
+  })
+  return crewDay(ctx, actor, crew)
 }
 
 /** The closure's crew and its ordered splicers. */

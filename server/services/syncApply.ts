@@ -355,7 +355,7 @@ function updateSplice(env: ApplyEnv, args: unknown): ApplyOutcome {
       {
         ...(patch as SpliceUpdate),
         flags: flagsFor(env, closure, limits, next),
-        ...(resetReview ? { reviewState: null } : {}),
+        ...(resetReview ? { reviewState: null, reviewReason: null, reviewedBy: null, reviewedAt: null } : {}),
       },
       { serverSeq: env.serverSeq, limits },
     )
@@ -363,7 +363,7 @@ function updateSplice(env: ApplyEnv, args: unknown): ApplyOutcome {
     recordFieldChanges(env.conn, ref, current, Object.fromEntries(plain), 'applied')
     const merged = Object.entries(patch).filter(([field]) => won.has(field as EditableField))
     recordFieldChanges(env.conn, ref, current, Object.fromEntries(merged), 'merged')
-    if (resetReview) recordFieldChanges(env.conn, ref, current, { reviewState: null })
+    if (resetReview) recordFieldChanges(env.conn, ref, current, { reviewState: null, reviewReason: null })
   }
   return overwritten.length > 0 ? { status: 'merged', overwritten } : applied
 }
@@ -550,6 +550,58 @@ function reopenClosure(env: ApplyEnv, args: unknown): ApplyOutcome {
   return applied
 }
 
+// Fields whose change after the foreman looked makes their verdict stale (the review's own fields do not).
+const reviewedFields = new Set([
+  'trayId',
+  'slot',
+  'cableAId',
+  'fiberA',
+  'cableBId',
+  'fiberB',
+  'method',
+  'lossDb',
+  'respliceReason',
+  'respliceNote',
+  'acceptReason',
+])
+
+function reviewSplice(env: ApplyEnv, args: unknown): ApplyOutcome {
+  const input = mutationArgsSchemas.reviewSplice.parse(args)
+  const splice = spliceRow(env.conn, input.id)
+  if (!splice || splice.deleted) throw refuse('not_found', 'The splice was not found.')
+  const closure = visibleClosure(env, splice.closureId)
+  assertLeads(env, closure)
+  if (closure.state === 'signed_off')
+    throw refuse('closure_locked', 'The closure is signed off; reopen it before reviewing a splice.')
+  if (!splice.isCurrent)
+    throw refuse('conflict', 'A later attempt replaces this splice; review that one instead.')
+  // A verdict on values the foreman never saw would accept something unseen: refuse it, to be looked at again.
+  if (splice.serverSeq > env.baseServerSeq) {
+    for (const [field, stamp] of spliceFieldStamps(env.conn, splice.id)) {
+      if (!reviewedFields.has(field) || stamp.clientId === env.clientId) continue
+      if ((stamp.serverSeq ?? splice.serverSeq) > env.baseServerSeq)
+        throw refuse('conflict', `The splice changed (${field}) after you looked at it; review it again.`)
+    }
+  }
+  const patch = {
+    reviewState: input.verdict,
+    reviewReason: input.reason,
+    reviewedBy: env.actor.id,
+    reviewedAt: env.at,
+  }
+  if (splice.reviewState === patch.reviewState && splice.reviewReason === patch.reviewReason) return applied
+  dbOf(env.conn)
+    .update(splices)
+    .set({ ...patch, serverSeq: env.serverSeq })
+    .where(eq(splices.id, splice.id))
+    .run()
+  recordFieldChanges(env.conn, change(env, 'splice', splice.id), splice, {
+    reviewState: patch.reviewState,
+    reviewReason: patch.reviewReason,
+  })
+  return applied
+}
+
 const appliers: Record<MutationName, (env: ApplyEnv, args: unknown) => ApplyOutcome> = {
   createSplice: (env, args) => createSplice(env, args, 'createSplice'),
   resplice: (env, args) => createSplice(env, args, 'resplice'),
@@ -561,6 +613,7 @@ const appliers: Record<MutationName, (env: ApplyEnv, args: unknown) => ApplyOutc
   setClosurePosition,
   signOffClosure,
   reopenClosure,
+  reviewSplice,
 }
 
 /** Applies one mutation as `env.actor`; throws an AppError with a refusal code when it must be refused. */
@@ -592,6 +645,7 @@ export function closureOfPayload(conn: Conn, name: string, args: unknown): strin
       return str(a.closureId)
     case 'updateSplice':
     case 'deleteSplice':
+    case 'reviewSplice':
       return ofSplice(str(a.id))
     case 'addPhotoLink':
     case 'addNote':
@@ -611,7 +665,8 @@ export function auditTargetOf(name: string, args: unknown): { entity: string; en
   const a = (args ?? {}) as Record<string, unknown>
   const pick = (entity: string, value: unknown) =>
     typeof value === 'string' && value.length <= 64 ? { entity, entityId: value } : null
-  if (['createSplice', 'resplice', 'updateSplice', 'deleteSplice'].includes(name)) return pick('splice', a.id)
+  if (['createSplice', 'resplice', 'updateSplice', 'deleteSplice', 'reviewSplice'].includes(name))
+    return pick('splice', a.id)
   if (name === 'addPhotoLink' || name === 'removePhotoLink') return pick('photo_link', a.id)
   if (name === 'addNote') return pick('note', a.id)
   return pick('closure', a.closureId)

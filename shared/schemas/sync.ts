@@ -35,6 +35,10 @@ export const mutationArgsSchemas = {
     .strict(),
   signOffClosure: z.object({ closureId: idSchema, note: noteSchema.default('') }).strict(),
   reopenClosure: z.object({ closureId: idSchema, reason: reasonSchema }).strict(),
+  /** The foreman's verdict on a splice: accepted as it is, or sent back to the splicer; always with a reason. */
+  reviewSplice: z
+    .object({ id: idSchema, verdict: z.enum(['accepted', 'sent_back']), reason: reasonSchema })
+    .strict(),
 } as const
 
 export type MutationName = keyof typeof mutationArgsSchemas

@@ -165,6 +165,20 @@ export const mutationSpecs: { [N in MutationName]: MutationSpec<N> } = {
       await db.closures.update(args.closureId, { state: 'reopened' })
     },
   },
+  reviewSplice: {
+    tables: ['splices'],
+    requires: (args) => [spliceRef(args.id)],
+    edits: true,
+    touches: async (_db, args) => [spliceRef(args.id)],
+    apply: async (db, args, ctx) => {
+      await db.splices.update(args.id, {
+        reviewState: args.verdict,
+        reviewReason: args.reason,
+        reviewedBy: db.userId,
+        reviewedAt: ctx.clientTime,
+      })
+    },
+  },
 }
 
 /** The spec of a mutation looked up by a runtime name (outbox entries carry their name as data). */

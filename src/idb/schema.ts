@@ -34,6 +34,10 @@ export type SpliceRow = Splice &
     isCurrent: boolean
     flags: string[]
     reviewState: 'accepted' | 'sent_back' | null
+    /** The foreman's reason for the verdict (absent on rows pulled before reviews carried one). */
+    reviewReason?: string | null
+    reviewedBy?: string | null
+    reviewedAt?: string | null
     createdAt: string
   }
 

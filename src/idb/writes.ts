@@ -216,6 +216,11 @@ export function signOffClosure(db: DeviceDb, args: MutationArgs<'signOffClosure'
   return recordMutation(db, 'signOffClosure', args, options)
 }
 
+/** Records the foreman's verdict on a splice (accepted, or sent back to the splicer), with the reason. */
+export function reviewSplice(db: DeviceDb, args: MutationArgs<'reviewSplice'>, options?: WriteOptions) {
+  return recordMutation(db, 'reviewSplice', args, options)
+}
+
 /** Reopens a signed-off closure, with the reason. */
 export function reopenClosure(db: DeviceDb, args: MutationArgs<'reopenClosure'>, options?: WriteOptions) {
   return recordMutation(db, 'reopenClosure', args, options)

@@ -1,5 +1,6 @@
 import type { RouteRecordRaw } from 'vue-router'
 import type { Role } from '#shared/schemas/enums'
+import { useSessionStore } from '@/stores/session'
 
 declare module 'vue-router' {
   interface RouteMeta {
@@ -22,7 +23,9 @@ export const routes: RouteRecordRaw[] = [
         path: '',
         name: 'closures',
         component: () => import('@/pages/ClosuresPage.vue'),
-        meta: { title: 'Closures', roles: fieldRoles },
+        // The inspector passes the role check only to be sent on: their first screen is the signed-off record.
+        meta: { title: 'Closures', roles: [...fieldRoles, 'inspector'] },
+        beforeEnter: () => (useSessionStore().user?.role === 'inspector' ? { name: 'inspect' } : true),
       },
       {
         path: 'sign-in',
@@ -41,6 +44,36 @@ export const routes: RouteRecordRaw[] = [
         name: 'tray',
         component: () => import('@/pages/TrayPage.vue'),
         meta: { title: 'Tray', roles: fieldRoles },
+      },
+      {
+        path: 'crew',
+        name: 'crew-board',
+        component: () => import('@/pages/CrewBoardPage.vue'),
+        meta: { title: 'Crew board', roles: ['foreman'] },
+      },
+      {
+        path: 'crew/day',
+        name: 'crew-day',
+        component: () => import('@/pages/CrewDayPage.vue'),
+        meta: { title: "The crew's day", roles: ['foreman'] },
+      },
+      {
+        path: 'crew/review/:closureId',
+        name: 'closure-review',
+        component: () => import('@/pages/ClosureReviewPage.vue'),
+        meta: { title: 'Closure review', roles: ['foreman'] },
+      },
+      {
+        path: 'inspect',
+        name: 'inspect',
+        component: () => import('@/pages/InspectorClosuresPage.vue'),
+        meta: { title: 'Signed-off closures', roles: ['inspector'] },
+      },
+      {
+        path: 'inspect/:closureId',
+        name: 'inspect-closure',
+        component: () => import('@/pages/InspectorClosurePage.vue'),
+        meta: { title: 'Closure record', roles: ['inspector'] },
       },
     ],
   },

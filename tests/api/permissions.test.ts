@@ -117,6 +117,8 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'GET /api/crews': read(() => '/api/crews'),
   'POST /api/crews': write(() => '/api/crews'),
   'PATCH /api/crews/:crewId': write((i) => `/api/crews/${i.crewId}`),
+  'GET /api/crews/:crewId/day': read((i) => `/api/crews/${i.crewId}/day`, true),
+  'PUT /api/crews/:crewId/day': write((i) => `/api/crews/${i.crewId}/day`, true),
 }
 
 const actors: DemoWho[] = ['splicer', 'foreman', 'office', 'inspector', 'splicer2', 'foreman2']

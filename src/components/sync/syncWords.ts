@@ -12,6 +12,7 @@ const changeWords: Record<MutationName, string> = {
   setClosurePosition: 'Closure position',
   signOffClosure: 'Closure sign-off',
   reopenClosure: 'Closure reopened',
+  reviewSplice: 'Splice review',
 }
 
 const fieldWords: Record<string, string> = {

@@ -24,6 +24,8 @@ export async function startServer(options: { env?: Record<string, string> } = {}
       ...options.env,
     },
     stdio: ['ignore', 'pipe', 'pipe'],
+    // Its own process group, so stop() ends npx and the tsx server under it together.
+    detached: true,
   })
   let log = ''
   const url = await new Promise<string>((resolve, reject) => {
@@ -50,7 +52,9 @@ export async function startServer(options: { env?: Record<string, string> } = {}
     async stop() {
       if (child.exitCode === null) {
         const exited = new Promise((resolve) => child.once('exit', resolve))
-        child.kill('SIGTERM')
+        // Killing npx alone leaves the tsx server running; the whole group goes.
+        if (child.pid) process.kill(-child.pid, 'SIGTERM')
+        else child.kill('SIGTERM')
         await exited
       }
       rmSync(dataDir, { recursive: true, force: true })
