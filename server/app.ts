@@ -12,6 +12,7 @@ import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
 import { syncRouter } from './routes/sync'
 import { createPhotoStorage } from './storage/index'
+import { createLogger, requestLogging } from './middleware/logging'
 import { serveApp } from './static'
 
 /** Builds the Express app around a context; never listens, so tests can drive it directly. */
@@ -19,12 +20,14 @@ export function createApp(deps: AppDeps): Express {
   const ctx: AppContext = {
     ...deps,
     storage: deps.storage ?? createPhotoStorage(deps.config),
+    logger: deps.logger ?? createLogger(deps.config.logLevel),
     registeredRoutes: new Set(),
   }
   const app = express()
   app.locals.ctx = ctx
   app.disable('x-powered-by')
   app.set('trust proxy', ctx.config.trustProxyHops)
+  app.use(requestLogging(ctx.logger))
   app.use(
     helmet({
       contentSecurityPolicy: {

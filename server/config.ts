@@ -25,6 +25,7 @@ const envSchema = z.object({
     .max(100 * 1024 * 1024)
     .default(15 * 1024 * 1024),
   LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION: z.coerce.number().int().min(1).optional(),
+  LIGHTSEAM_LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).optional(),
   // Photo store: the local disk (embedded default) or an S3 bucket.
   LIGHTSEAM_STORAGE: z.enum(['disk', 's3']).default('disk'),
   LIGHTSEAM_S3_BUCKET: z.string().min(3).max(63).optional(),
@@ -79,6 +80,8 @@ export interface Config {
   photoDir: string
   /** The largest photo upload accepted, in bytes. */
   photoMaxBytes: number
+  /** Request and error log level (JSON lines on stdout); silent by default in tests. */
+  logLevel: 'fatal' | 'error' | 'warn' | 'info' | 'debug' | 'trace' | 'silent'
   /** Which photo store the app uses (photoDir is the disk driver's folder). */
   photoStore: PhotoStoreConfig
   /** Inert in production: the env hook is refused unless NODE_ENV=test; tests may set beforeApply. */
@@ -154,6 +157,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     photoDir: resolve(e.LIGHTSEAM_PHOTO_DIR ?? resolve(dataDir, 'photos')),
     photoMaxBytes: e.LIGHTSEAM_PHOTO_MAX_BYTES,
     photoStore: photoStoreOf(e),
+    logLevel: e.LIGHTSEAM_LOG_LEVEL ?? (e.NODE_ENV === 'test' ? 'silent' : 'info'),
     syncTestHooks: { pauseAfterMutation: e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION ?? null },
     ...overrides,
   }

@@ -1,3 +1,4 @@
+import type { Logger } from 'pino'
 import type { Database } from '#db/client'
 import type { Config } from './config'
 import type { PhotoStorage } from './storage/index'
@@ -7,13 +8,16 @@ export interface AppDeps {
   config: Config
   database: Database
   version: string
-  /** Where photo bytes go; the local disk under config.photoDir when not given. */
+  /** Where photo bytes go; the store config.photoStore names when not given. */
   storage?: PhotoStorage
+  /** Where request and error lines go; stdout at config.logLevel when not given. */
+  logger?: Logger
 }
 
 /** What every route and service may use; built once by createApp. */
 export interface AppContext extends AppDeps {
   storage: PhotoStorage
+  logger: Logger
   /** Every route key registered by createApp, checked against the policy table by the permission test. */
   registeredRoutes: Set<string>
 }

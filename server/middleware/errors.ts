@@ -8,7 +8,7 @@ interface BodyParserError extends Error {
 }
 
 /** Maps every failure to `{ error: { code, message, details? } }`; unknown errors are 500 without internals. */
-export const errorHandler: ErrorRequestHandler = (err: unknown, _req, res, next) => {
+export const errorHandler: ErrorRequestHandler = (err: unknown, req, res, next) => {
   if (res.headersSent) return next(err)
   if (err instanceof AppError) {
     if (err.headers) res.set(err.headers)
@@ -51,7 +51,9 @@ export const errorHandler: ErrorRequestHandler = (err: unknown, _req, res, next)
       .json({ error: { code: 'bad_request', message: 'The request could not be read.' } })
     return
   }
-  console.error(err)
+  // pino-http's request logger carries the request id; the stack stays in the log, never in the answer.
+  if (req.log) req.log.error({ err }, 'request failed')
+  else console.error(err)
   res.status(500).json({ error: { code: 'internal', message: 'Something went wrong on the server.' } })
 }
 

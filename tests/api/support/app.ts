@@ -2,6 +2,7 @@ import { mkdtempSync, rmSync } from 'node:fs'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
 import type { Express } from 'express'
+import type { Logger } from 'pino'
 import request from 'supertest'
 import { openDatabase, type Database } from '#db/client'
 import { runMigrations } from '#db/migrate'
@@ -26,7 +27,10 @@ export type DemoWho = DemoUser['key']
 const secret = new TextEncoder().encode('test-secret-test-secret-test-secret-0123456789')
 
 /** A fresh app over its own SQLite file: migrations applied, demo scenario seeded, fast hashing. */
-export function makeTestApp(overrides: Partial<Config> = {}, options: { seed?: boolean } = {}): TestApp {
+export function makeTestApp(
+  overrides: Partial<Config> = {},
+  options: { seed?: boolean; logger?: Logger } = {},
+): TestApp {
   const dataDir = mkdtempSync(join(tmpdir(), 'lightseam-api-'))
   const config = loadConfig(
     {
@@ -40,7 +44,7 @@ export function makeTestApp(overrides: Partial<Config> = {}, options: { seed?: b
   const database = openDatabase(config.dbFile)
   runMigrations(database.db)
   if (options.seed !== false) seedDemo(database.db, { bcryptCost: 4 })
-  const app = createApp({ config, database, version: 'test' })
+  const app = createApp({ config, database, version: 'test', logger: options.logger })
   const ctx = app.locals.ctx as AppContext
   const tokens = new Map<string, string>()
   return {
