@@ -21,6 +21,7 @@ export function createApp(deps: AppDeps): Express {
     ...deps,
     storage: deps.storage ?? createPhotoStorage(deps.config),
     logger: deps.logger ?? createLogger(deps.config.logLevel),
+    lifecycle: { stopping: false },
     registeredRoutes: new Set(),
   }
   const app = express()

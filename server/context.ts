@@ -18,6 +18,8 @@ export interface AppDeps {
 export interface AppContext extends AppDeps {
   storage: PhotoStorage
   logger: Logger
+  /** Set when the server has begun to stop: readiness then answers 503 so a balancer stops sending work. */
+  lifecycle: { stopping: boolean }
   /** Every route key registered by createApp, checked against the policy table by the permission test. */
   registeredRoutes: Set<string>
 }

@@ -5,6 +5,7 @@ import { openDatabase } from '#db/client'
 import { runMigrations } from '#db/migrate'
 import { demoUsers, seedDemo } from '#db/seed'
 import { createApp } from './app'
+import type { AppContext } from './context'
 import { buildIfNeeded } from './build'
 import { ConfigError, loadConfig } from './config'
 
@@ -26,6 +27,7 @@ function main(): void {
   }
 
   const app = createApp({ config, database, version })
+  const ctx = app.locals.ctx as AppContext
   const server = app.listen(config.port, config.host, () => {
     const { port } = server.address() as AddressInfo
     console.warn(`Lightseam is listening on http://${config.host}:${port}`)
@@ -35,6 +37,7 @@ function main(): void {
   const shutdown = (signal: string) => {
     if (closing) return
     closing = true
+    ctx.lifecycle.stopping = true
     console.warn(`${signal}: finishing open requests, then closing the database.`)
     server.close(() => {
       database.sqlite.pragma('wal_checkpoint(TRUNCATE)')

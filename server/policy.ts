@@ -23,6 +23,7 @@ const writers = ['splicer', 'foreman', 'office'] as const
 
 export const policy = {
   'GET /api/health': { roles: 'public', scope: 'none' },
+  'GET /api/ready': { roles: 'public', scope: 'none' },
   'POST /api/auth/sign-in': { roles: 'public', scope: 'none' },
   'POST /api/auth/refresh': { roles: 'public', scope: 'none' },
   'POST /api/auth/sign-out': { roles: 'public', scope: 'none' },

@@ -23,6 +23,8 @@ export interface PhotoStorage {
   read(key: string): Promise<Readable>
   /** Deletes the bytes under `key`; removing what is not there is not an error. */
   remove(key: string): Promise<void>
+  /** Rejects, saying why, when the store cannot take uploads now (folder not writable, bucket unreachable). */
+  ready(): Promise<void>
 }
 
 /** The store the configuration names: the local disk unless LIGHTSEAM_STORAGE=s3. */

@@ -1,4 +1,5 @@
 import { createReadStream, mkdirSync, readdirSync, rmSync } from 'node:fs'
+import { constants } from 'node:fs'
 import { access, mkdir, open, rename, rm } from 'node:fs/promises'
 import { join, resolve, sep } from 'node:path'
 import type { Readable } from 'node:stream'
@@ -62,6 +63,10 @@ export function createLocalDiskStorage(root: string): PhotoStorage {
     },
     async remove(key) {
       await rm(pathOf(key), { force: true })
+    },
+    async ready() {
+      await access(tempDir, constants.W_OK)
+      await access(base, constants.W_OK)
     },
   }
 }

@@ -5,6 +5,7 @@ import type { Readable } from 'node:stream'
 import {
   DeleteObjectCommand,
   GetObjectCommand,
+  HeadBucketCommand,
   HeadObjectCommand,
   PutObjectCommand,
   S3Client,
@@ -103,6 +104,9 @@ export function createS3Storage(options: S3StorageOptions, client?: S3Client): P
     },
     async remove(key) {
       await s3.send(new DeleteObjectCommand({ Bucket, Key: checked(key) }))
+    },
+    async ready() {
+      await s3.send(new HeadBucketCommand({ Bucket }))
     },
   }
 }

@@ -49,6 +49,7 @@ const write = (
 
 const recipes: Record<RouteKey, Recipe | 'public'> = {
   'GET /api/health': 'public',
+  'GET /api/ready': 'public',
   'POST /api/auth/sign-in': 'public',
   'POST /api/auth/refresh': 'public',
   'POST /api/auth/sign-out': 'public',
