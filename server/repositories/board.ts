@@ -1,6 +1,13 @@
 import type BetterSqlite3 from 'better-sqlite3'
 import { type Conn, rawSqlite, type Sqlite } from '#db/client'
-import type { ClosureKind, ClosureState } from '#shared/schemas/enums'
+import { closureStates, type ClosureKind, type ClosureState } from '#shared/schemas/enums'
+import {
+  completionBands,
+  lossBinCount,
+  lossBinWidthDb,
+  type BoardSummary,
+  type CompletionBand,
+} from '#shared/schemas/projectBoard'
 
 export const boardSorts = ['label', 'completion', 'overTarget', 'lastActivity', 'routePosition'] as const
 export type BoardSort = (typeof boardSorts)[number]
@@ -247,4 +254,77 @@ export function explainProjectBoard(conn: Conn, projectId: string, query: BoardQ
     detail: string
   }>
   return rows.map((row) => row.detail)
+}
+
+interface SummaryRow {
+  state: ClosureState
+  band: CompletionBand
+  bin: number | null
+  closures: number
+  planned: number
+  logged: number
+  over_target: number
+}
+
+const summaryStatements = new WeakMap<
+  Sqlite,
+  Map<string, BetterSqlite3.Statement<[Record<string, unknown>], SummaryRow>>
+>()
+
+// Means are taken in thousandths, as totalsOf takes them, so a closure falls in the bar its board row shows.
+function summarySql(query: Pick<BoardQuery, 'state' | 'crewId' | 'q'>): string {
+  const milliMean = 'round(t.loss_sum * 1000) * 1.0 / t.loss_count'
+  return `
+    SELECT c.state AS state,
+      CASE WHEN t.planned = 0 THEN 'no_plan' WHEN t.logged = 0 THEN '0'
+           WHEN t.logged * 2 < t.planned THEN '1-49' WHEN t.logged < t.planned THEN '50-99' ELSE '100' END AS band,
+      CASE WHEN t.loss_count = 0 THEN NULL
+           ELSE min(${lossBinCount}, max(0, CAST(${milliMean} / ${Math.round(lossBinWidthDb * 1000)} AS INTEGER))) END AS bin,
+      count(*) AS closures, sum(t.planned) AS planned, sum(t.logged) AS logged, sum(t.over_target) AS over_target
+    FROM closures c JOIN closure_totals t ON t.closure_id = c.id
+    WHERE c.project_id = @projectId AND ${filters(query)}
+    GROUP BY 1, 2, 3`
+}
+
+/** The roll-up of every closure the filters match: counts per state and completion band, closures binned by mean loss. */
+export function projectBoardSummary(
+  conn: Conn,
+  projectId: string,
+  query: Pick<BoardQuery, 'state' | 'crewId' | 'q'>,
+): BoardSummary {
+  const sqlite = rawSqlite(conn)
+  let byShape = summaryStatements.get(sqlite)
+  if (!byShape) {
+    byShape = new Map()
+    summaryStatements.set(sqlite, byShape)
+  }
+  const shape = `${query.state !== undefined}|${query.crewId !== undefined}|${Boolean(query.q)}`
+  let statement = byShape.get(shape)
+  if (!statement) {
+    statement = sqlite.prepare(summarySql(query))
+    byShape.set(shape, statement)
+  }
+  const summary: BoardSummary = {
+    closures: 0,
+    planned: 0,
+    logged: 0,
+    overTarget: 0,
+    byState: Object.fromEntries(closureStates.map((s) => [s, 0])) as BoardSummary['byState'],
+    byCompletion: Object.fromEntries(completionBands.map((b) => [b, 0])) as BoardSummary['byCompletion'],
+    meanLossBins: Array.from({ length: lossBinCount + 1 }, () => 0),
+    noLoss: 0,
+  }
+  for (const row of statement.all(
+    boardParams(projectId, { ...query, limit: 0, offset: 0, sort: 'label', dir: 'asc' }),
+  )) {
+    summary.closures += row.closures
+    summary.planned += row.planned
+    summary.logged += row.logged
+    summary.overTarget += row.over_target
+    summary.byState[row.state] += row.closures
+    summary.byCompletion[row.band] += row.closures
+    if (row.bin === null) summary.noLoss += row.closures
+    else summary.meanLossBins[row.bin] = (summary.meanLossBins[row.bin] ?? 0) + row.closures
+  }
+  return summary
 }

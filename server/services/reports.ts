@@ -6,7 +6,7 @@ import type { AppContext } from '../context'
 import { AppError } from '../errors'
 import type { Actor } from '../middleware/auth'
 import { listAudit } from '../repositories/audit'
-import { closureRollup, projectBoard } from '../repositories/board'
+import { closureRollup, projectBoard, projectBoardSummary } from '../repositories/board'
 import { dbOf } from '../repositories/records'
 import { loadProjectLimits } from '../repositories/splices'
 import { closureScope } from './access'
@@ -22,6 +22,8 @@ export const boardQuerySchema = pageQuerySchema
     state: closureStateSchema.optional(),
     crewId: idSchema.optional(),
     q: z.string().trim().min(1).max(80).optional(),
+    /** Also roll up every closure the filters match (for the board's charts). */
+    summary: z.enum(['true', 'false']).optional(),
   })
   .strict()
 
@@ -40,6 +42,10 @@ export function board(ctx: AppContext, actor: Actor, projectId: unknown, query: 
     scoped.state = 'signed_off'
   }
   const page = projectBoard(ctx.database.db, project.id, scoped)
+  if (q.summary === 'true') {
+    const summary = projectBoardSummary(ctx.database.db, project.id, scoped)
+    return { ...page, limit: q.limit, offset: q.offset, summary }
+  }
   return { ...page, limit: q.limit, offset: q.offset }
 }
 

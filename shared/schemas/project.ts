@@ -113,3 +113,17 @@ export const projectUpdateSchema = projectSchema
   .strict()
   .refine(hasSomeField, emptyUpdateMessage)
 export type ProjectUpdate = z.infer<typeof projectUpdateSchema>
+
+/** Where each default limit comes from, worded for the people who set a project up (REFERENCE.md §2). */
+export const defaultLimitSources = {
+  standardMaxDb: 'ANSI/TIA-568.3-D (2016) splice maximum — from memory; ISO/IEC 11801 gives the same',
+  contractTargetDb: 'Published municipal and campus specifications — common practice',
+  attemptsBeforeAcceptWithFlag: 'Published municipal and campus specifications — common practice',
+  photoRules: 'Common practice: trays and the closed closure photographed; single splices when over target',
+  defaultMethod: 'Common practice: single-fiber fusion',
+  otdrToleranceM: 'Common practice — how far an OTDR event may sit from the closure’s route position',
+  disagreementDb: 'Common practice — how far the estimate may differ from the OTDR average',
+} as const
+
+/** Starting values for the OTDR matching settings a new project must give (common practice; the demo project uses them). */
+export const defaultMatchingSettings = { otdrToleranceM: 15, disagreementDb: 0.15 } as const

@@ -13,6 +13,7 @@ declare module 'vue-router' {
 }
 
 const fieldRoles: Role[] = ['splicer', 'foreman', 'office']
+const officeRoles: Role[] = ['office']
 
 export const routes: RouteRecordRaw[] = [
   {
@@ -74,6 +75,49 @@ export const routes: RouteRecordRaw[] = [
         name: 'inspect-closure',
         component: () => import('@/pages/InspectorClosurePage.vue'),
         meta: { title: 'Closure record', roles: ['inspector'] },
+      },
+      // Office screens: desktop, online, each page its own lazy chunk (never part of the field bundle).
+      {
+        path: 'office',
+        name: 'office-projects',
+        component: () => import('@/pages/office/OfficeProjectsPage.vue'),
+        meta: { title: 'Projects', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId',
+        name: 'office-project',
+        component: () => import('@/pages/office/OfficeProjectPage.vue'),
+        meta: { title: 'Project set-up', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/cables/:cableId',
+        name: 'office-cable',
+        component: () => import('@/pages/office/OfficeCablePage.vue'),
+        meta: { title: 'Cable', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/closures/:closureId',
+        name: 'office-closure',
+        component: () => import('@/pages/office/OfficeClosurePage.vue'),
+        meta: { title: 'Closure set-up', roles: officeRoles },
+      },
+      {
+        path: 'office/closures/:closureId/plan',
+        name: 'office-plan',
+        component: () => import('@/pages/office/OfficePlanPage.vue'),
+        meta: { title: 'Splice plan', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/board',
+        name: 'office-board',
+        component: () => import('@/pages/office/OfficeBoardPage.vue'),
+        meta: { title: 'Project board', roles: officeRoles },
+      },
+      {
+        path: 'office/audit/:entity/:entityId',
+        name: 'office-audit',
+        component: () => import('@/pages/office/OfficeAuditPage.vue'),
+        meta: { title: 'History', roles: officeRoles },
       },
     ],
   },
