@@ -25,6 +25,8 @@ const envSchema = z.object({
     .max(100 * 1024 * 1024)
     .default(15 * 1024 * 1024),
   LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION: z.coerce.number().int().min(1).optional(),
+  /** Test only: a short access-token lifetime so browser tests can see a token expire. */
+  LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS: z.coerce.number().int().min(1).max(900).optional(),
 })
 
 /** Hooks the sync tests use to make the push fail or stop at a chosen point; inert unless set. */
@@ -88,6 +90,9 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
   if (e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION !== undefined && e.NODE_ENV !== 'test') {
     throw new ConfigError('Lightseam cannot start: LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION needs NODE_ENV=test.')
   }
+  if (e.LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS !== undefined && e.NODE_ENV !== 'test') {
+    throw new ConfigError('Lightseam cannot start: LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS needs NODE_ENV=test.')
+  }
   const dataDir = resolve(overrides.dataDir ?? e.LIGHTSEAM_DATA_DIR)
   return {
     env: e.NODE_ENV,
@@ -99,7 +104,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     jwtSecret: overrides.jwtSecret ?? loadSecret(e.LIGHTSEAM_JWT_SECRET, dataDir),
     jwtIssuer: 'lightseam',
     jwtAudience: 'lightseam-app',
-    accessTokenSeconds: 15 * 60,
+    accessTokenSeconds: e.LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS ?? 15 * 60,
     refreshTokenDays: 30,
     bcryptCost: e.LIGHTSEAM_BCRYPT_COST,
     trustProxyHops: e.LIGHTSEAM_TRUST_PROXY,
