@@ -1,11 +1,11 @@
 // The Quasar options that src/main.ts passes to app.use(Quasar, …); nothing else is configured here.
 // Build, PWA and dev-server settings live in vite.config.ts (Quasar runs through @quasar/vite-plugin).
 import type { QuasarPluginOptions } from 'quasar'
-import { Dark, Dialog, LocalStorage, Notify } from 'quasar'
+import { Dark, LocalStorage } from 'quasar'
 import iconSet from 'quasar/icon-set/svg-material-icons'
 
 export const quasarOptions: Partial<QuasarPluginOptions> = {
-  plugins: { Dark, Dialog, LocalStorage, Notify },
+  plugins: { Dark, LocalStorage },
   iconSet,
   config: {
     dark: 'auto',
@@ -18,6 +18,5 @@ export const quasarOptions: Partial<QuasarPluginOptions> = {
       info: '#1565c0',
       warning: '#ef6c00',
     },
-    notify: { position: 'top', timeout: 3000 },
   },
 }

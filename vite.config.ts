@@ -13,6 +13,10 @@ export default defineConfig({
     // `#shared/*` and `#db/*` come from package.json "imports", which Vite, Node and TypeScript all read.
     alias: { '@': srcDir },
   },
+  define: {
+    // Every component is <script setup>; without the Options API Vue's runtime is smaller.
+    __VUE_OPTIONS_API__: 'false',
+  },
   plugins: [
     vue({ template: { transformAssetUrls } }),
     quasar({
@@ -59,6 +63,14 @@ export default defineConfig({
     chunkSizeWarningLimit: 600,
     // Read by tests/bench/bundle.bench.ts to add up what the field screens load.
     manifest: true,
+    rolldownOptions: {
+      output: {
+        // The libraries every screen starts with travel as one chunk: one request, one gzip window.
+        codeSplitting: {
+          groups: [{ name: 'core', test: /node_modules[\\/](@vue|vue|vue-router|pinia|dexie|zod)[\\/]/ }],
+        },
+      },
+    },
   },
   test: {
     projects: [

@@ -37,6 +37,8 @@ const envSchema = z.object({
     .string()
     .regex(/^([A-Za-z0-9._-]+\/)*$/, 'must be empty or folder names each ending in /')
     .default(''),
+  /** Test only: a short access-token lifetime so browser tests can see a token expire. */
+  LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS: z.coerce.number().int().min(1).max(900).optional(),
 })
 
 /** Where photo bytes are kept. */
@@ -138,6 +140,9 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
   if (e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION !== undefined && e.NODE_ENV !== 'test') {
     throw new ConfigError('Lightseam cannot start: LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION needs NODE_ENV=test.')
   }
+  if (e.LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS !== undefined && e.NODE_ENV !== 'test') {
+    throw new ConfigError('Lightseam cannot start: LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS needs NODE_ENV=test.')
+  }
   const dataDir = resolve(overrides.dataDir ?? e.LIGHTSEAM_DATA_DIR)
   return {
     env: e.NODE_ENV,
@@ -149,7 +154,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     jwtSecret: overrides.jwtSecret ?? loadSecret(e.LIGHTSEAM_JWT_SECRET, dataDir),
     jwtIssuer: 'lightseam',
     jwtAudience: 'lightseam-app',
-    accessTokenSeconds: 15 * 60,
+    accessTokenSeconds: e.LIGHTSEAM_TEST_ACCESS_TOKEN_SECONDS ?? 15 * 60,
     refreshTokenDays: 30,
     bcryptCost: e.LIGHTSEAM_BCRYPT_COST,
     trustProxyHops: e.LIGHTSEAM_TRUST_PROXY,

@@ -1,8 +1,8 @@
 import { computed, ref, type Ref } from 'vue'
-import { Notify } from 'quasar'
 import type { SpliceEntry } from '@/components/splice/spliceEntry'
 import { progressOf, type ClosureData } from './useFieldData'
 import { useSpliceLog } from './useSpliceLog'
+import { useNoticeStore } from '@/stores/notice'
 
 /** The splicer's walk through one tray: open a slot, save, move on to the next planned slot still to do. */
 export function useTrayWork(
@@ -11,6 +11,7 @@ export function useTrayWork(
   trayId: () => string,
 ) {
   const log = useSpliceLog(closureId)
+  const notices = useNoticeStore()
   const tray = computed(() => data.value?.trays.find((row) => row.id === trayId()) ?? null)
   const cables = computed(() =>
     Object.fromEntries((data.value?.cables ?? []).map((cable) => [cable.id, cable])),
@@ -74,24 +75,19 @@ export function useTrayWork(
       const next = entry.edit ? null : nextToDo(entry.slot)
       if (next === null) {
         close()
-        Notify.create({
-          type: 'positive',
+        notices.show({
+          kind: 'done',
           message: entry.edit ? 'Splice changed.' : 'Saved. No planned slot left to do in this tray.',
         })
       } else {
         open(next)
-        Notify.create({
-          type: 'positive',
-          message: `Saved slot ${entry.slot}. Next: slot ${next}.`,
-          timeout: 1500,
-          position: 'bottom',
-        })
+        notices.show({ kind: 'done', message: `Saved slot ${entry.slot}. Next: slot ${next}.` }, 1500)
       }
     } catch (error) {
-      Notify.create({
-        type: 'negative',
-        message: error instanceof Error ? error.message : 'The splice was not saved.',
-      })
+      notices.show(
+        { kind: 'problem', message: error instanceof Error ? error.message : 'The splice was not saved.' },
+        6000,
+      )
     } finally {
       saving.value = false
     }

@@ -1,6 +1,6 @@
 import { defineStore } from 'pinia'
 import { computed, ref, shallowRef } from 'vue'
-import { Dialog, LocalStorage } from 'quasar'
+import { LocalStorage } from 'quasar'
 import {
   refreshRequest,
   signInRequest,
@@ -12,21 +12,6 @@ import { queuedNow } from '@/boot/sync'
 
 const userKey = 'ls.user'
 const emailKey = 'ls.lastEmail'
-
-function confirm(title: string, message: string, ok: string): Promise<boolean> {
-  return new Promise((resolve) => {
-    Dialog.create({
-      title,
-      message,
-      cancel: { label: 'Stay signed in', flat: true },
-      ok: { label: ok, color: 'negative' },
-      persistent: true,
-    })
-      .onOk(() => resolve(true))
-      .onCancel(() => resolve(false))
-      .onDismiss(() => resolve(false))
-  })
-}
 
 /**
  * Runs `work` while holding the device-wide refresh lock, so two tabs never present the same refresh cookie
@@ -50,6 +35,8 @@ export const useSessionStore = defineStore('session', () => {
   const lastEmail = ref(LocalStorage.getItem<string>(emailKey) ?? '')
 
   const signedIn = computed(() => user.value !== null)
+  /** A sign-out waiting for the user to confirm it (queued work on the device); the layout shows it. */
+  const signOutWarning = shallowRef<{ queued: number; answer: (go: boolean) => void } | null>(null)
 
   function adopt(answer: SessionAnswer) {
     accessToken.value = answer.accessToken
@@ -104,12 +91,15 @@ export const useSessionStore = defineStore('session', () => {
   async function signOut(): Promise<boolean> {
     const queued = await queuedNow()
     if (queued > 0) {
-      const go = await confirm(
-        'Changes not sent yet',
-        `${queued} change${queued === 1 ? '' : 's'} on this device have not reached the server. They stay on ` +
-          'this device and are sent when you sign in again here — signing in on another device will not show them.',
-        'Sign out anyway',
-      )
+      const go = await new Promise<boolean>((resolve) => {
+        signOutWarning.value = {
+          queued,
+          answer: (choice) => {
+            signOutWarning.value = null
+            resolve(choice)
+          },
+        }
+      })
       if (!go) return false
     }
     await signOutRequest().catch(() => undefined)
@@ -120,5 +110,16 @@ export const useSessionStore = defineStore('session', () => {
     return true
   }
 
-  return { user, accessToken, needsSignIn, lastEmail, signedIn, signIn, refresh, restore, signOut }
+  return {
+    user,
+    accessToken,
+    needsSignIn,
+    lastEmail,
+    signedIn,
+    signOutWarning,
+    signIn,
+    refresh,
+    restore,
+    signOut,
+  }
 })
