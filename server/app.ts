@@ -11,6 +11,7 @@ import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
 import { syncRouter } from './routes/sync'
+import { otdrRouter } from './routes/otdr'
 import { createLocalDiskStorage } from './storage/index'
 import { serveApp } from './static'
 
@@ -61,6 +62,7 @@ export function createApp(deps: AppDeps): Express {
   api.use(peopleRouter(ctx))
   api.use(syncRouter(ctx))
   api.use(photosRouter(ctx))
+  api.use(otdrRouter(ctx))
   api.use(apiNotFound)
   app.use('/api', api)
 

@@ -80,6 +80,9 @@ export const policy = {
   'GET /api/crews': { roles: leads, scope: 'none' },
   'POST /api/crews': { roles: office, scope: 'none' },
   'PATCH /api/crews/:crewId': { roles: office, scope: 'none' },
+
+  'GET /api/projects/:projectId/otdr/template': { roles: office, scope: 'project' },
+  'POST /api/projects/:projectId/otdr/imports': { roles: office, scope: 'project' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

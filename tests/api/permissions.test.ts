@@ -117,6 +117,8 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'GET /api/crews': read(() => '/api/crews'),
   'POST /api/crews': write(() => '/api/crews'),
   'PATCH /api/crews/:crewId': write((i) => `/api/crews/${i.crewId}`),
+  'GET /api/projects/:projectId/otdr/template': read((i) => `/api/projects/${i.projectId}/otdr/template`),
+  'POST /api/projects/:projectId/otdr/imports': write((i) => `/api/projects/${i.projectId}/otdr/imports`),
 }
 
 const actors: DemoWho[] = ['splicer', 'foreman', 'office', 'inspector', 'splicer2', 'foreman2']
