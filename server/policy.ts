@@ -83,6 +83,8 @@ export const policy = {
 
   'GET /api/projects/:projectId/otdr/template': { roles: office, scope: 'project' },
   'POST /api/projects/:projectId/otdr/imports': { roles: office, scope: 'project' },
+  'GET /api/closures/:closureId/reconciliation': { roles: reviewers, scope: 'closure' },
+  'GET /api/cables/:cableId/reconciliation': { roles: reviewers, scope: 'closure' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

@@ -2,6 +2,7 @@ import { Router } from 'express'
 import type { AppContext } from '../context'
 import { route } from '../http'
 import * as otdr from '../services/otdr'
+import * as reconciliation from '../services/reconciliation'
 import { otdrCsvTemplate } from '../services/otdrCsv'
 import { getProject } from '../services/projects'
 
@@ -14,6 +15,12 @@ export function otdrRouter(ctx: AppContext): Router {
   route(ctx, router, 'POST /api/projects/:projectId/otdr/imports', (req, res) => {
     const { status, result } = otdr.importOtdrFiles(ctx, res.locals.actor, req.params.projectId, req.body)
     res.status(status).json(result)
+  })
+  route(ctx, router, 'GET /api/closures/:closureId/reconciliation', (req, res) => {
+    res.json(reconciliation.closureReconciliation(ctx, res.locals.actor, req.params.closureId))
+  })
+  route(ctx, router, 'GET /api/cables/:cableId/reconciliation', (req, res) => {
+    res.json(reconciliation.cableReconciliation(ctx, res.locals.actor, req.params.cableId))
   })
   return router
 }

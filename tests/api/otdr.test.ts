@@ -76,6 +76,16 @@ describe('OTDR import', () => {
       .get() as { at: number; after: string | null; before: string }
     expect(bend).toEqual({ at: 800, after: null, before: 'VLT-01 Weir Road' })
 
+    const view = await request(t.app)
+      .get(`/api/closures/${t.database.sqlite.prepare("SELECT id FROM closures WHERE label LIKE 'VLT-01%'").pluck().get() as string}/reconciliation`)
+      .set('Authorization', await t.tokenFor('foreman'))
+    expect(view.status).toBe(200)
+    const row = (view.body.splices as { id: string; measured: { averageDb: number; flags: string[] }[]; untested: number[] }[]).find((s) => s.id === splice)!
+    expect(row.measured[0]!.averageDb).toBeCloseTo(0.15, 9)
+    expect(row.untested).toEqual([1310])
+    expect(view.body.unmatched).toHaveLength(1)
+    expect(view.body.counts.untested).toBe(view.body.counts.splices)
+
     // The same bytes again change nothing.
     const counts = tableCounts(t.database)
     const again = await send([{ name: 'renamed.csv', text }])

@@ -119,6 +119,8 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'PATCH /api/crews/:crewId': write((i) => `/api/crews/${i.crewId}`),
   'GET /api/projects/:projectId/otdr/template': read((i) => `/api/projects/${i.projectId}/otdr/template`),
   'POST /api/projects/:projectId/otdr/imports': write((i) => `/api/projects/${i.projectId}/otdr/imports`),
+  'GET /api/closures/:closureId/reconciliation': read((i) => `/api/closures/${i.closureId}/reconciliation`, true),
+  'GET /api/cables/:cableId/reconciliation': read((i) => `/api/cables/${i.cableId}/reconciliation`),
 }
 
 const actors: DemoWho[] = ['splicer', 'foreman', 'office', 'inspector', 'splicer2', 'foreman2']
