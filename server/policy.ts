@@ -85,6 +85,7 @@ export const policy = {
   'POST /api/projects/:projectId/otdr/imports': { roles: office, scope: 'project' },
   'GET /api/closures/:closureId/reconciliation': { roles: reviewers, scope: 'closure' },
   'GET /api/cables/:cableId/reconciliation': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/fiber-path': { roles: office, scope: 'project' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

@@ -3,6 +3,7 @@ import type { AppContext } from '../context'
 import { route } from '../http'
 import * as otdr from '../services/otdr'
 import * as reconciliation from '../services/reconciliation'
+import { fiberPath } from '../services/fiberPaths'
 import { otdrCsvTemplate } from '../services/otdrCsv'
 import { getProject } from '../services/projects'
 
@@ -21,6 +22,9 @@ export function otdrRouter(ctx: AppContext): Router {
   })
   route(ctx, router, 'GET /api/cables/:cableId/reconciliation', (req, res) => {
     res.json(reconciliation.cableReconciliation(ctx, res.locals.actor, req.params.cableId))
+  })
+  route(ctx, router, 'GET /api/projects/:projectId/fiber-path', (req, res) => {
+    res.json(fiberPath(ctx, res.locals.actor, req.params.projectId, req.query))
   })
   return router
 }

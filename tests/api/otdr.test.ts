@@ -86,6 +86,22 @@ describe('OTDR import', () => {
     expect(view.body.unmatched).toHaveLength(1)
     expect(view.body.counts.untested).toBe(view.body.counts.splices)
 
+    const cableId = t.database.sqlite.prepare('SELECT id FROM cables WHERE label = ?').pluck().get(cable) as string
+    const path = await request(t.app)
+      .get(`/api/projects/${projectId}/fiber-path`)
+      .query({ cableId, fiber: 1 })
+      .set('Authorization', await t.tokenFor('office'))
+    expect(path.status).toBe(200)
+    expect(path.body.lengthM).toBe(1636)
+    expect(path.body.aEnd).toEqual({ kind: 'terminal' })
+    expect(path.body.bEnd.kind).toBe('dead_end')
+    const b1550 = path.body.budgets.find((b: { wavelengthNm: number }) => b.wavelengthNm === 1550)
+    // TIA-568.3-D allowances (REFERENCE.md §2, from memory): 1.636 km × 0.5 + 1 splice × 0.3 + 1 connector pair × 0.75.
+    expect(b1550.allowedDb).toBeCloseTo(0.818 + 0.3 + 0.75, 9)
+    expect(b1550.splices[0]).toMatchObject({ source: 'measured', lossDb: expect.closeTo(0.15, 9) })
+    expect(b1550.marginDb).toBeCloseTo(0.15, 9)
+    expect(b1550.measuredEndToEndDb).toBeCloseTo(0.925, 9)
+
     // The same bytes again change nothing.
     const counts = tableCounts(t.database)
     const again = await send([{ name: 'renamed.csv', text }])

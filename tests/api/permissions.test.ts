@@ -121,6 +121,9 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'POST /api/projects/:projectId/otdr/imports': write((i) => `/api/projects/${i.projectId}/otdr/imports`),
   'GET /api/closures/:closureId/reconciliation': read((i) => `/api/closures/${i.closureId}/reconciliation`, true),
   'GET /api/cables/:cableId/reconciliation': read((i) => `/api/cables/${i.cableId}/reconciliation`),
+  'GET /api/projects/:projectId/fiber-path': read(
+    (i) => `/api/projects/${i.projectId}/fiber-path?cableId=${i.cableId}&fiber=1`,
+  ),
 }
 
 const actors: DemoWho[] = ['splicer', 'foreman', 'office', 'inspector', 'splicer2', 'foreman2']
