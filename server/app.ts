@@ -13,6 +13,7 @@ import { photosRouter } from './routes/photos'
 import { syncRouter } from './routes/sync'
 import { createPhotoStorage } from './storage/index'
 import { createLogger, requestLogging } from './middleware/logging'
+import { otdrRouter } from './routes/otdr'
 import { serveApp } from './static'
 
 /** Builds the Express app around a context; never listens, so tests can drive it directly. */
@@ -65,6 +66,7 @@ export function createApp(deps: AppDeps): Express {
   api.use(peopleRouter(ctx))
   api.use(syncRouter(ctx))
   api.use(photosRouter(ctx))
+  api.use(otdrRouter(ctx))
   api.use(apiNotFound)
   app.use('/api', api)
 

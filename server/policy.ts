@@ -84,6 +84,12 @@ export const policy = {
   // A crew's day: each member's closures in order; a foreman reads and sets their own crew's only.
   'GET /api/crews/:crewId/day': { roles: leads, scope: 'closure' },
   'PUT /api/crews/:crewId/day': { roles: leads, scope: 'closure' },
+
+  'GET /api/projects/:projectId/otdr/template': { roles: office, scope: 'project' },
+  'POST /api/projects/:projectId/otdr/imports': { roles: office, scope: 'project' },
+  'GET /api/closures/:closureId/reconciliation': { roles: reviewers, scope: 'closure' },
+  'GET /api/cables/:cableId/reconciliation': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/fiber-path': { roles: office, scope: 'project' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

@@ -1,0 +1,99 @@
+import { z } from 'zod'
+import { otdrEventKinds } from '../domain/otdr'
+import { labelSchema, limitDbSchema } from './common'
+import { wavelengthSchema } from './enums'
+
+/** The columns of Lightseam's OTDR event CSV, in order: one row per event, the trace's fields repeated on each. */
+export const otdrCsvColumns = [
+  'cable',
+  'fiber',
+  'from_end',
+  'wavelength_nm',
+  'fiber_length_m',
+  'end_to_end_db',
+  'distance_m',
+  'loss_db',
+  'reflectance_db',
+  'kind',
+] as const
+
+const blankToNull = (value: unknown) => (value === '' || value === undefined ? null : value)
+const number = z.coerce.number<string>().refine(Number.isFinite, 'Give a number.')
+const optional = <T extends z.ZodType>(schema: T) => z.preprocess(blankToNull, schema.nullable())
+
+/** One CSV row as read (all text); numbers are written with a dot, distances in metres, losses in dB. */
+export const otdrCsvRowSchema = z
+  .strictObject({
+    cable: labelSchema,
+    fiber: z.coerce.number<string>().int('Give a whole fiber number.').min(1).max(3456),
+    from_end: z.enum(['A', 'B'], 'Write A (measured from the A end) or B (from the B end).'),
+    wavelength_nm: z.coerce.number<string>().pipe(wavelengthSchema),
+    fiber_length_m: number.pipe(z.number().positive().max(1_000_000)),
+    end_to_end_db: optional(number.pipe(z.number().min(0).max(100))),
+    distance_m: optional(number.pipe(z.number().min(-1_000).max(1_000_000))),
+    loss_db: optional(number.pipe(z.number().min(-5).max(30))),
+    reflectance_db: optional(number.pipe(z.number().min(-100).max(0))),
+    kind: optional(z.enum(otdrEventKinds, `Write one of: ${otdrEventKinds.join(', ')}.`)),
+  })
+  .superRefine((row, ctx) => {
+    const hasEvent = row.distance_m !== null || row.loss_db !== null || row.kind !== null
+    if (hasEvent && row.distance_m === null)
+      ctx.addIssue({ code: 'custom', path: ['distance_m'], message: 'An event needs its distance.' })
+    if (hasEvent && row.kind === null)
+      ctx.addIssue({ code: 'custom', path: ['kind'], message: 'An event needs its kind.' })
+    if (hasEvent && row.kind !== 'end' && row.kind !== null && row.loss_db === null)
+      ctx.addIssue({ code: 'custom', path: ['loss_db'], message: 'A splice, connector or bend needs its loss.' })
+  })
+export type OtdrCsvRow = z.infer<typeof otdrCsvRowSchema>
+
+/** The body of an import: one or more CSV files as text, each with the name it had on disk. */
+export const otdrImportBodySchema = z.strictObject({
+  files: z
+    .array(
+      z.strictObject({
+        name: z.string().trim().min(1).max(200),
+        text: z.string().min(1, 'The file is empty.').max(900_000),
+      }),
+    )
+    .min(1, 'Choose at least one file.')
+    .max(50),
+})
+export type OtdrImportBody = z.infer<typeof otdrImportBodySchema>
+
+/** A problem in one row of one file; `row` counts the header as row 1, as a spreadsheet shows it. */
+export const otdrRowProblemSchema = z.object({
+  file: z.string(),
+  row: z.number().int(),
+  field: z.string().nullable(),
+  message: z.string(),
+})
+export type OtdrRowProblem = z.infer<typeof otdrRowProblemSchema>
+
+export const otdrImportResultSchema = z.object({
+  files: z.array(
+    z.object({
+      name: z.string(),
+      sha256: z.string(),
+      status: z.enum(['imported', 'unchanged']),
+      importId: z.string(),
+      traces: z.number().int(),
+      events: z.number().int(),
+      unmatched: z.number().int(),
+    }),
+  ),
+})
+export type OtdrImportResult = z.infer<typeof otdrImportResultSchema>
+
+/** Loss budget allowances a project sets; a null field falls back to the TIA-568.3-D default. */
+export const lossBudgetSettingsSchema = z.strictObject({
+  attenuationDbPerKm: z.number().min(0).max(10).nullable(),
+  spliceLossDb: limitDbSchema.nullable(),
+  connectorPairLossDb: limitDbSchema.nullable(),
+  marginDb: z.number().min(0).max(50).nullable(),
+})
+export type LossBudgetSettings = z.infer<typeof lossBudgetSettingsSchema>
+
+export const fiberPathQuerySchema = z.strictObject({
+  cableId: z.uuid(),
+  fiber: z.coerce.number<string>().int().min(1).max(3456),
+})
