@@ -7,6 +7,7 @@ import { authRouter } from './routes/auth'
 import { closuresRouter } from './routes/closures'
 import { peopleRouter } from './routes/people'
 import { projectsRouter } from './routes/projects'
+import { reportsRouter } from './routes/reports'
 import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
@@ -61,6 +62,7 @@ export function createApp(deps: AppDeps): Express {
   api.use(peopleRouter(ctx))
   api.use(syncRouter(ctx))
   api.use(photosRouter(ctx))
+  api.use(reportsRouter(ctx))
   api.use(apiNotFound)
   app.use('/api', api)
 

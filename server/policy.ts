@@ -80,6 +80,12 @@ export const policy = {
   'GET /api/crews': { roles: leads, scope: 'none' },
   'POST /api/crews': { roles: office, scope: 'none' },
   'PATCH /api/crews/:crewId': { roles: office, scope: 'none' },
+
+  // Reports: exports and the close-out PDF follow closure scope (foreman own crew, inspector signed-off work).
+  'GET /api/closures/:closureId/export/splices': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/export/splices': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/export/board': { roles: reviewers, scope: 'closure' },
+  'GET /api/closures/:closureId/close-out': { roles: reviewers, scope: 'closure' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

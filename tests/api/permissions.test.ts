@@ -117,6 +117,13 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'GET /api/crews': read(() => '/api/crews'),
   'POST /api/crews': write(() => '/api/crews'),
   'PATCH /api/crews/:crewId': write((i) => `/api/crews/${i.crewId}`),
+  'GET /api/closures/:closureId/export/splices': read(
+    (i) => `/api/closures/${i.closureId}/export/splices`,
+    true,
+  ),
+  'GET /api/projects/:projectId/export/splices': read((i) => `/api/projects/${i.projectId}/export/splices`),
+  'GET /api/projects/:projectId/export/board': read((i) => `/api/projects/${i.projectId}/export/board`),
+  'GET /api/closures/:closureId/close-out': read((i) => `/api/closures/${i.closureId}/close-out`, true),
 }
 
 const actors: DemoWho[] = ['splicer', 'foreman', 'office', 'inspector', 'splicer2', 'foreman2']
