@@ -5,6 +5,7 @@ import type { AppContext, AppDeps } from './context'
 import { apiNotFound, errorHandler } from './middleware/errors'
 import { authRouter } from './routes/auth'
 import { closuresRouter } from './routes/closures'
+import { mailRouter } from './routes/mail'
 import { peopleRouter } from './routes/people'
 import { projectsRouter } from './routes/projects'
 import { reportsRouter } from './routes/reports'
@@ -12,6 +13,7 @@ import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
 import { syncRouter } from './routes/sync'
+import { createMailer } from './mail/mailer'
 import { createLocalDiskStorage } from './storage/index'
 import { serveApp } from './static'
 
@@ -20,6 +22,7 @@ export function createApp(deps: AppDeps): Express {
   const ctx: AppContext = {
     ...deps,
     storage: deps.storage ?? createLocalDiskStorage(deps.config.photoDir),
+    mailer: deps.mailer ?? createMailer(deps.config.mail),
     registeredRoutes: new Set(),
   }
   const app = express()
@@ -63,6 +66,7 @@ export function createApp(deps: AppDeps): Express {
   api.use(syncRouter(ctx))
   api.use(photosRouter(ctx))
   api.use(reportsRouter(ctx))
+  api.use(mailRouter(ctx))
   api.use(apiNotFound)
   app.use('/api', api)
 
