@@ -42,6 +42,18 @@ export const routes: RouteRecordRaw[] = [
         component: () => import('@/pages/TrayPage.vue'),
         meta: { title: 'Tray', roles: fieldRoles },
       },
+      {
+        path: 'office/people',
+        name: 'office-people',
+        component: () => import('@/pages/office/PeoplePage.vue'),
+        meta: { title: 'People', roles: ['office'] },
+      },
+      {
+        path: 'office/mailbox',
+        name: 'office-mailbox',
+        component: () => import('@/pages/office/MailboxPage.vue'),
+        meta: { title: 'Mailbox', roles: ['office'] },
+      },
     ],
   },
   {
