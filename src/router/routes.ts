@@ -43,6 +43,18 @@ export const routes: RouteRecordRaw[] = [
         meta: { title: 'Tray', roles: fieldRoles },
       },
       {
+        path: 'welcome',
+        name: 'welcome',
+        component: () => import('@/pages/SetPasswordPage.vue'),
+        meta: { title: 'Welcome', public: true },
+      },
+      {
+        path: 'reset-password',
+        name: 'reset-password',
+        component: () => import('@/pages/SetPasswordPage.vue'),
+        meta: { title: 'Reset password', public: true },
+      },
+      {
         path: 'office/people',
         name: 'office-people',
         component: () => import('@/pages/office/PeoplePage.vue'),

@@ -111,7 +111,7 @@ describe('office people and mailbox in Chromium', () => {
           await page.locator('[data-testid=nav-people]').waitFor({ timeout: 60_000 })
           for (const [name, path, ready] of [
             ['people', '/office/people', `[data-testid="user-${office.email}"]`],
-            ['mailbox', '/office/mailbox', '[data-testid=mail-item]'],
+            ['mailbox', '/office/mailbox', '[data-testid=mail-list]'],
           ] as const) {
             await page.goto(`${server.url}${path}`)
             await page.locator(ready).first().waitFor({ timeout: 60_000 })
