@@ -5,8 +5,10 @@ import type { AppContext, AppDeps } from './context'
 import { apiNotFound, errorHandler } from './middleware/errors'
 import { authRouter } from './routes/auth'
 import { closuresRouter } from './routes/closures'
+import { mailRouter } from './routes/mail'
 import { peopleRouter } from './routes/people'
 import { projectsRouter } from './routes/projects'
+import { reportsRouter } from './routes/reports'
 import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
@@ -14,6 +16,7 @@ import { syncRouter } from './routes/sync'
 import { createPhotoStorage } from './storage/index'
 import { createLogger, requestLogging } from './middleware/logging'
 import { otdrRouter } from './routes/otdr'
+import { createMailer } from './mail/mailer'
 import { serveApp } from './static'
 
 /** Builds the Express app around a context; never listens, so tests can drive it directly. */
@@ -23,6 +26,7 @@ export function createApp(deps: AppDeps): Express {
     storage: deps.storage ?? createPhotoStorage(deps.config),
     logger: deps.logger ?? createLogger(deps.config.logLevel),
     lifecycle: { stopping: false },
+    mailer: deps.mailer ?? createMailer(deps.config.mail),
     registeredRoutes: new Set(),
   }
   const app = express()
@@ -67,6 +71,8 @@ export function createApp(deps: AppDeps): Express {
   api.use(syncRouter(ctx))
   api.use(photosRouter(ctx))
   api.use(otdrRouter(ctx))
+  api.use(reportsRouter(ctx))
+  api.use(mailRouter(ctx))
   api.use(apiNotFound)
   app.use('/api', api)
 

@@ -1,6 +1,7 @@
 import type { Logger } from 'pino'
 import type { Database } from '#db/client'
 import type { Config } from './config'
+import type { Mailer } from './mail/mailer'
 import type { PhotoStorage } from './storage/index'
 
 /** What createApp needs from its caller: tests pass their own (fresh database file, fast hashing). */
@@ -12,6 +13,8 @@ export interface AppDeps {
   storage?: PhotoStorage
   /** Where request and error lines go; stdout at config.logLevel when not given. */
   logger?: Logger
+  /** How mail goes out; SMTP from the config (or the local fake SMTP server) when not given. */
+  mailer?: Mailer
 }
 
 /** What every route and service may use; built once by createApp. */
@@ -20,6 +23,7 @@ export interface AppContext extends AppDeps {
   logger: Logger
   /** Set when the server has begun to stop: readiness then answers 503 so a balancer stops sending work. */
   lifecycle: { stopping: boolean }
+  mailer: Mailer
   /** Every route key registered by createApp, checked against the policy table by the permission test. */
   registeredRoutes: Set<string>
 }

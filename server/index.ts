@@ -8,6 +8,7 @@ import { createApp } from './app'
 import type { AppContext } from './context'
 import { buildIfNeeded } from './build'
 import { ConfigError, loadConfig } from './config'
+import { startDailyReport } from './mail/schedule'
 
 const root = fileURLToPath(new URL('..', import.meta.url))
 const { version } = JSON.parse(readFileSync(new URL('../package.json', import.meta.url), 'utf8')) as {
@@ -28,6 +29,9 @@ function main(): void {
 
   const app = createApp({ config, database, version })
   const ctx = app.locals.ctx as AppContext
+  const daily = startDailyReport(ctx)
+  if (!config.mail.smtpUrl)
+    console.warn(`Mail goes to the local fake SMTP server; messages are kept in ${config.mail.dir}.`)
   const server = app.listen(config.port, config.host, () => {
     const { port } = server.address() as AddressInfo
     console.warn(`Lightseam is listening on http://${config.host}:${port}`)
@@ -39,7 +43,9 @@ function main(): void {
     closing = true
     ctx.lifecycle.stopping = true
     console.warn(`${signal}: finishing open requests, then closing the database.`)
+    daily.stop()
     server.close(() => {
+      void ctx.mailer.close().catch(() => {})
       database.sqlite.pragma('wal_checkpoint(TRUNCATE)')
       database.sqlite.close()
       process.exit(0)

@@ -90,6 +90,22 @@ export const policy = {
   'GET /api/closures/:closureId/reconciliation': { roles: reviewers, scope: 'closure' },
   'GET /api/cables/:cableId/reconciliation': { roles: reviewers, scope: 'closure' },
   'GET /api/projects/:projectId/fiber-path': { roles: office, scope: 'project' },
+
+  // Reports: exports and the close-out PDF follow closure scope (foreman own crew, inspector signed-off work).
+  'GET /api/closures/:closureId/export/splices': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/export/splices': { roles: reviewers, scope: 'closure' },
+  'GET /api/projects/:projectId/export/board': { roles: reviewers, scope: 'closure' },
+  'GET /api/closures/:closureId/close-out': { roles: reviewers, scope: 'closure' },
+
+  // Mail: invitations and resets by single-use link; the demo mailbox reads the local fake SMTP server.
+  'POST /api/invitations': { roles: office, scope: 'none' },
+  'POST /api/auth/invitation/accept': { roles: 'public', scope: 'none' },
+  'POST /api/auth/password-reset': { roles: 'public', scope: 'none' },
+  'POST /api/auth/password-reset/confirm': { roles: 'public', scope: 'none' },
+  'POST /api/projects/:projectId/production-report': { roles: office, scope: 'none' },
+  'GET /api/mailbox': { roles: office, scope: 'none' },
+  'GET /api/mailbox/:messageId': { roles: office, scope: 'none' },
+  'GET /api/mailbox/:messageId/attachments/:index': { roles: office, scope: 'none' },
 } as const satisfies Record<string, Rule>
 
 export type RouteKey = keyof typeof policy

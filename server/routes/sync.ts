@@ -1,6 +1,7 @@
 import { Router } from 'express'
 import type { AppContext } from '../context'
 import { route } from '../http'
+import { afterPush } from '../services/mail'
 import { listRejected, pushMutations, reapplyRejected } from '../services/sync'
 import { pullChanges } from '../services/syncPull'
 
@@ -9,7 +10,14 @@ export function syncRouter(ctx: AppContext): Router {
   const router = Router()
   // The body arrives parsed by the API's JSON parser, which already caps it at 1 MiB (SYNC.md).
   route(ctx, router, 'POST /api/sync/push', (req, res) => {
-    res.json(pushMutations(ctx, res.locals.actor, req.body))
+    const answer = pushMutations(ctx, res.locals.actor, req.body)
+    res.json(answer)
+    // The batch has committed: sign-off messages go out now, outside the transaction, and never fail the sync.
+    afterPush(
+      ctx,
+      (req.body as { mutations: { seq: number; name: string; args: unknown }[] }).mutations,
+      answer.results,
+    )
   })
   route(ctx, router, 'GET /api/sync/pull', (req, res) => {
     res.json(pullChanges(ctx, res.locals.actor, req.query))

@@ -2,6 +2,13 @@ import type BetterSqlite3 from 'better-sqlite3'
 import { spliceMeasurement, flagsForMeasurement } from '#shared/domain/otdr'
 import type { ProjectLimits } from '#shared/schemas/project'
 
+/** One wavelength's reconciled OTDR result for a splice. */
+export interface MeasuredLoss {
+  wavelengthNm: number
+  averageDb: number | null
+  flags: string[]
+}
+
 interface ResultRow {
   spliceId: string
   wavelengthNm: number
@@ -20,8 +27,8 @@ interface ResultRow {
 export function measuredForSplices(
   sqlite: BetterSqlite3.Database,
   spliceIds: readonly string[],
-): Map<string, { wavelengthNm: number; averageDb: number | null; flags: string[] }[]> {
-  const out = new Map<string, { wavelengthNm: number; averageDb: number | null; flags: string[] }[]>()
+): Map<string, MeasuredLoss[]> {
+  const out = new Map<string, MeasuredLoss[]>()
   // Chunks stay under SQLite's bound-parameter limit.
   for (let i = 0; i < spliceIds.length; i += 500) {
     const chunk = spliceIds.slice(i, i + 500)

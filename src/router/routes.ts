@@ -119,6 +119,30 @@ export const routes: RouteRecordRaw[] = [
         component: () => import('@/pages/office/OfficeAuditPage.vue'),
         meta: { title: 'History', roles: officeRoles },
       },
+      {
+        path: 'welcome',
+        name: 'welcome',
+        component: () => import('@/pages/SetPasswordPage.vue'),
+        meta: { title: 'Welcome', public: true },
+      },
+      {
+        path: 'reset-password',
+        name: 'reset-password',
+        component: () => import('@/pages/SetPasswordPage.vue'),
+        meta: { title: 'Reset password', public: true },
+      },
+      {
+        path: 'office/people',
+        name: 'office-people',
+        component: () => import('@/pages/office/PeoplePage.vue'),
+        meta: { title: 'People', roles: ['office'] },
+      },
+      {
+        path: 'office/mailbox',
+        name: 'office-mailbox',
+        component: () => import('@/pages/office/MailboxPage.vue'),
+        meta: { title: 'Mailbox', roles: ['office'] },
+      },
     ],
   },
   {

@@ -127,6 +127,32 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'GET /api/projects/:projectId/fiber-path': read(
     (i) => `/api/projects/${i.projectId}/fiber-path?cableId=${i.cableId}&fiber=1`,
   ),
+  'GET /api/closures/:closureId/export/splices': read(
+    (i) => `/api/closures/${i.closureId}/export/splices`,
+    true,
+  ),
+  'GET /api/projects/:projectId/export/splices': read((i) => `/api/projects/${i.projectId}/export/splices`),
+  'GET /api/projects/:projectId/export/board': read((i) => `/api/projects/${i.projectId}/export/board`),
+  'GET /api/closures/:closureId/close-out': read((i) => `/api/closures/${i.closureId}/close-out`, true),
+  'POST /api/invitations': write(() => '/api/invitations'),
+  'POST /api/auth/invitation/accept': 'public',
+  'POST /api/auth/password-reset': 'public',
+  'POST /api/auth/password-reset/confirm': 'public',
+  'POST /api/projects/:projectId/production-report': write(
+    (i) => `/api/projects/${i.projectId}/production-report`,
+  ),
+  'GET /api/mailbox': read(() => '/api/mailbox'),
+  // No message is caught in this app: an allowed caller gets 404 for an unknown message, nothing else.
+  'GET /api/mailbox/:messageId': {
+    path: () => `/api/mailbox/${uuidv7()}`,
+    closureBound: false,
+    allowed: 404,
+  },
+  'GET /api/mailbox/:messageId/attachments/:index': {
+    path: () => `/api/mailbox/${uuidv7()}/attachments/0`,
+    closureBound: false,
+    allowed: 404,
+  },
 }
 
 const actors: DemoWho[] = ['splicer', 'foreman', 'office', 'inspector', 'splicer2', 'foreman2']
