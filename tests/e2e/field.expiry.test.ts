@@ -34,8 +34,18 @@ describe('an access token that runs out while the phone is offline (Chromium)', 
         })
         .toBe('synced')
 
+      // Reload once online so the service worker controls the page (a first load is not controlled).
+      await page.evaluate(async () => {
+        await navigator.serviceWorker.ready
+      })
+      await page.reload()
+      await page.waitForFunction(() => navigator.serviceWorker.controller !== null, undefined, {
+        timeout: 60_000,
+      })
+      await card.waitFor({ timeout: 60_000 })
       await context.setOffline(true)
       await card.click()
+      await page.waitForURL(/\/closures\/[^/]+$/)
       const closureId = new URL(page.url()).pathname.split('/')[2]!
       let slot: number | undefined
       for (let tray = 1; slot === undefined; tray += 1) {
@@ -106,8 +116,18 @@ describe('an access token that runs out while the phone is offline (Chromium)', 
         })
         .toBe('synced')
 
+      // Reload once online so the service worker controls the page (a first load is not controlled).
+      await page.evaluate(async () => {
+        await navigator.serviceWorker.ready
+      })
+      await page.reload()
+      await page.waitForFunction(() => navigator.serviceWorker.controller !== null, undefined, {
+        timeout: 60_000,
+      })
+      await card.waitFor({ timeout: 60_000 })
       await context.setOffline(true)
       await card.click()
+      await page.waitForURL(/\/closures\/[^/]+$/)
       const closureId = new URL(page.url()).pathname.split('/')[2]!
       let slot: number | undefined
       for (let tray = 1; slot === undefined; tray += 1) {
