@@ -2,6 +2,7 @@ import { toRaw } from 'vue'
 import { LocalStorage } from 'quasar'
 import { v7 as uuidv7 } from 'uuid'
 import type { SpliceEntry } from '@/components/splice/spliceEntry'
+import type { SlotSplice } from '@/components/tray/slotState'
 import { device } from '@/boot/sync'
 import { deviceMeta } from '@/idb/db'
 import { addNote, addPhotoLink, editSplice, logSplice, resplice } from '@/idb/writes'
@@ -26,12 +27,28 @@ export function useSpliceLog(closureId: () => string) {
     return device.value.db
   }
 
-  async function saveSplice(entry: SpliceEntry): Promise<string> {
+  /**
+   * Writes the splice (and its outbox entry) to the device. `onPrepared` receives the slot's new current
+   * attempt before the first wait, so the tray can show it while the device database commits.
+   */
+  async function saveSplice(entry: SpliceEntry, onPrepared?: (splice: SlotSplice) => void): Promise<string> {
     const current = db()
+    const id = entry.edit ? entry.edit.id : uuidv7()
+    const previous = entry.resplice ? toRaw(entry.resplice.previous) : null
+    onPrepared?.({
+      id,
+      trayId: entry.trayId,
+      slot: entry.slot,
+      cableAId: entry.cableAId,
+      fiberA: entry.fiberA,
+      cableBId: entry.cableBId,
+      fiberB: entry.fiberB,
+      lossDb: entry.lossDb,
+      attempt: entry.edit ? entry.edit.attempt : previous ? previous.attempt + 1 : 1,
+      acceptReason: entry.acceptReason,
+    })
     const photo = entry.photo ? await compressPhoto(entry.photo, entry.photo.name) : null
-    let id: string
     if (entry.edit) {
-      id = entry.edit.id
       const next = {
         lossDb: entry.lossDb,
         method: entry.method,
@@ -49,9 +66,7 @@ export function useSpliceLog(closureId: () => string) {
       )
       if (Object.keys(fields).length > 0) await editSplice(current, id, fields)
     } else {
-      id = uuidv7()
       const { clientId } = await deviceMeta(current)
-      const previous = entry.resplice ? toRaw(entry.resplice.previous) : null
       const args = {
         id,
         closureId: closureId(),

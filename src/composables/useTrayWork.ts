@@ -1,8 +1,10 @@
-import { computed, ref, type Ref } from 'vue'
+import { computed, ref, shallowRef, watch, type Ref } from 'vue'
+import type { SlotSplice } from '@/components/tray/slotState'
 import type { SpliceEntry } from '@/components/splice/spliceEntry'
 import { progressOf, type ClosureData } from './useFieldData'
 import { useSpliceLog } from './useSpliceLog'
 import { useNoticeStore } from '@/stores/notice'
+import type { CableRow } from '@/idb/schema'
 
 /** The splicer's walk through one tray: open a slot, save, move on to the next planned slot still to do. */
 export function useTrayWork(
@@ -13,15 +15,40 @@ export function useTrayWork(
   const log = useSpliceLog(closureId)
   const notices = useNoticeStore()
   const tray = computed(() => data.value?.trays.find((row) => row.id === trayId()) ?? null)
-  const cables = computed(() =>
-    Object.fromEntries((data.value?.cables ?? []).map((cable) => [cable.id, cable])),
-  )
+  // Kept as the same object while no cable changed, so the slot list's rows are not all re-drawn after
+  // every save (each device read brings new cable objects).
+  const cables = computed<Record<string, CableRow>>((previous) => {
+    const rows = data.value?.cables ?? []
+    const unchanged =
+      previous !== undefined &&
+      Object.keys(previous).length === rows.length &&
+      rows.every((cable) => previous[cable.id]?.serverSeq === cable.serverSeq)
+    return unchanged ? previous : Object.fromEntries(rows.map((cable) => [cable.id, cable]))
+  })
   const locked = computed(() => data.value?.closure.state === 'signed_off')
   const progress = computed(() => {
     const view = data.value
     if (!view) return { planned: 0, logged: 0, flagged: 0, offPlan: 0 }
     const mine = <T extends { trayId: string }>(rows: T[]) => rows.filter((row) => row.trayId === trayId())
     return progressOf(mine(view.planRows), mine(view.splices), view.limits)
+  })
+  /**
+   * Attempts being written to the device, shown in the slot list at once (the tap is answered in the same
+   * frame); each is dropped when the device read brings it back, or when its write fails.
+   */
+  const writing = shallowRef<SlotSplice[]>([])
+  const splices = computed<readonly SlotSplice[]>(() => {
+    const stored = data.value?.splices ?? []
+    if (writing.value.length === 0) return stored
+    const slots = new Set(writing.value.map((splice) => `${splice.trayId}:${splice.slot}`))
+    return [...stored.filter((splice) => !slots.has(`${splice.trayId}:${splice.slot}`)), ...writing.value]
+  })
+  /** Written attempts whose slot waits for the next device read to show the stored row. */
+  const committed = new Set<SlotSplice>()
+  watch(data, () => {
+    if (committed.size === 0) return
+    writing.value = writing.value.filter((splice) => !committed.has(splice))
+    committed.clear()
   })
   const openSlot = ref<number | null>(null)
   const activeSlot = ref<number | null>(null)
@@ -56,7 +83,7 @@ export function useTrayWork(
   function nextToDo(after: number): number | null {
     const view = data.value
     if (!view || !tray.value) return null
-    const done = new Set(view.splices.filter((s) => s.trayId === trayId()).map((s) => s.slot))
+    const done = new Set(splices.value.filter((s) => s.trayId === trayId()).map((s) => s.slot))
     const todo = view.planRows
       .filter((row) => row.trayId === trayId() && !done.has(row.slot) && row.slot !== after)
       .map((row) => row.slot)
@@ -66,8 +93,14 @@ export function useTrayWork(
 
   async function save(entry: SpliceEntry) {
     saving.value = true
+    let shown: SlotSplice | null = null
     try {
-      const id = await log.saveSplice(entry)
+      const id = await log.saveSplice(entry, (splice) => {
+        shown = splice
+        const key = `${splice.trayId}:${splice.slot}`
+        writing.value = [...writing.value.filter((w) => `${w.trayId}:${w.slot}` !== key), splice]
+      })
+      if (shown) committed.add(shown)
       if (entry.thenResplice) {
         respliceFrom.value = id
         return
@@ -90,11 +123,14 @@ export function useTrayWork(
       )
     } finally {
       saving.value = false
+      // A failed write leaves the slot as the device holds it (the entry stays in the open panel).
+      if (shown && !committed.has(shown)) writing.value = writing.value.filter((splice) => splice !== shown)
     }
   }
 
   return {
     tray,
+    splices,
     locked,
     progress,
     cables,
