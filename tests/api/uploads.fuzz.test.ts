@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { errorBodySchema } from '#shared/schemas/common'
 import { makeTestApp, type TestApp } from './support/app'
 import { fingerprint, unchangedSince, type Fingerprint } from './support/fingerprint'
-import { iconPng, jpegBytes, webpBytes } from './support/photos'
+import { iconPng, jpegBytes, storedFiles, tempFiles, webpBytes } from './support/photos'
 
 // Uploads under fuzz: the plan CSV, OTDR CSV files and photo bytes, starting from files the server accepts
 // and breaking them the ways files break in the field (quotes, delimiters, BOMs, line endings, NUL bytes,
@@ -78,6 +78,8 @@ afterAll(() => {
 // ---- How files break ---------------------------------------------------------------------------------
 
 type Damage = (text: string) => string
+/** Past every body limit (plan 2 MB, JSON 1 MB); damages stop growing a file here. */
+const maxFileChars = 3_000_000
 const at = (text: string, where: number) => Math.floor(where * (text.length + 1))
 const insertAt = (text: string, where: number, what: string) =>
   text.slice(0, at(text, where)) + what + text.slice(at(text, where))
@@ -142,7 +144,11 @@ const textDamage: fc.Arbitrary<Damage> = fc.oneof(
   fc.constantFrom(2_000, 20_000).map((n): Damage => (s) => {
     const [header, ...rows] = s.trimEnd().split('\n')
     const out = [header]
-    for (let i = 0; out.length <= n; i += 1) out.push(rows[i % rows.length])
+    let size = 0
+    for (let i = 0; out.length <= n && size < maxFileChars; i += 1) {
+      out.push(rows[i % rows.length])
+      size += (rows[i % rows.length] ?? '').length + 1
+    }
     return out.join('\n') + '\n'
   }),
   fc.constant<Damage>((s) => s.split('\n')[0]! + '\n'),
@@ -179,7 +185,7 @@ const textDamage: fc.Arbitrary<Damage> = fc.oneof(
 const damaged = (base: () => string) =>
   fc
     .array(textDamage, { minLength: 0, maxLength: 3 })
-    .map((damages) => damages.reduce((s, d) => d(s), base()))
+    .map((damages) => damages.reduce((s, d) => d(s).slice(0, maxFileChars), base()))
 
 /** How the bytes of the text go over the wire. */
 const encodings = fc.constantFrom(
@@ -267,6 +273,26 @@ describe('fuzzing the uploads', () => {
     current = fingerprint(t.database)
   })
 
+  // The fuzz found an empty body refused without details; a header-only and an unreadable file had the same gap.
+  it.each([
+    ['an empty body', 1, ''],
+    ['only the header', 2, 'tray,slot,cable_a,fiber_a,cable_b,fiber_b\n'],
+    [
+      'an unclosed quote on row 3',
+      3,
+      'tray,slot,cable_a,fiber_a,cable_b,fiber_b\n1,1,A,1,B,2\n1,2,"A,1,B,3\n',
+    ],
+  ] as const)('when the plan CSV is %s, then the refusal names row %i', async (_what, row, text) => {
+    const res = await request(t.app)
+      .post(`/api/closures/${closureId}/plan/csv`)
+      .set('Authorization', office)
+      .set('Content-Type', 'text/csv')
+      .send(text)
+    check('plan csv regression', res, [], ['invalid_csv'])
+    expect(res.body.error.code).toBe('invalid_csv')
+    expect(res.body.error.details[0].row).toBe(row)
+  })
+
   it('POST /api/closures/:closureId/plan/csv: broken files in any encoding', async () => {
     await fc.assert(
       fc.asyncProperty(
@@ -352,12 +378,16 @@ describe('fuzzing the uploads', () => {
         const hash = rightHash
           ? createHash('sha256').update(bytes).digest('hex')
           : createHash('sha256').update(original.bytes).digest('hex')
+        const filesBefore = storedFiles(t)
         const res = await request(t.app)
           .put(`/api/photos/${hash}`)
           .set('Authorization', splicer)
           .set('Content-Type', type ?? original.type)
           .send(bytes)
         check(`photo ${type ?? original.type}`, res, [200, 201], [])
+        // No bytes are left behind: nothing in the temp folder, nothing new in the store unless stored.
+        expect(tempFiles(t)).toEqual([])
+        if (res.status >= 400) expect(storedFiles(t)).toEqual(filesBefore)
         if (res.status === 201 || res.status === 200) {
           // Stored only under the hash of the bytes that arrived, as the type they are.
           expect(rightHash || bytes.equals(original.bytes)).toBe(true)
