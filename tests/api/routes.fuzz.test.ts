@@ -2,7 +2,16 @@ import fc from 'fast-check'
 import request from 'supertest'
 import { v7 as uuidv7 } from 'uuid'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { z } from 'zod'
+import { cableSchema } from '#shared/schemas/cable'
+import { closureSchema } from '#shared/schemas/closure'
 import { errorBodySchema } from '#shared/schemas/common'
+import { otdrImportResultSchema } from '#shared/schemas/otdr'
+import { planRowSchema } from '#shared/schemas/planRow'
+import { projectSchema } from '#shared/schemas/project'
+import { pushResponseSchema } from '#shared/schemas/sync'
+import { traySchema } from '#shared/schemas/tray'
+import { crewSchema, userSchema } from '#shared/schemas/user'
 import { policy, type RouteKey } from '../../server/policy'
 import { demoUser, makeTestApp, type DemoWho, type TestApp } from './support/app'
 import { fingerprint, unchangedSince, type Fingerprint } from './support/fingerprint'
@@ -42,6 +51,8 @@ interface Recipe {
   sample: (ids: Ids) => unknown
   /** Statuses this route documents for a valid request. */
   ok: number[]
+  /** The documented body of a 2xx, where the shared schemas describe it. */
+  shape?: z.ZodType
   /** 4xx beyond the common ones (400, 404, 409, 413, 415, 422) that this route documents. */
   alsoRefuses?: number[]
 }
@@ -55,6 +66,7 @@ const recipes: Record<string, Recipe> = {
     as: 'public',
     path: () => '/api/auth/sign-in',
     sample: () => ({ email: demoUser('inspector').email, password: 'not the password at all' }),
+    shape: z.object({ accessToken: z.string().min(20), user: z.object({ id: z.uuid() }) }),
     ok: [200],
     alsoRefuses: [401, 429],
   }),
@@ -97,6 +109,7 @@ const recipes: Record<string, Recipe> = {
     as: 'office',
     path: () => '/api/projects',
     sample: () => ({ id: uuidv7(), code: 'FZ-01', name: 'Corvell Ford fuzz spur' }),
+    shape: projectSchema,
     ok: [201],
   }),
   'PATCH /api/projects/:projectId': json({
@@ -104,6 +117,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.projectId,
     path: (id) => `/api/projects/${id}`,
     sample: () => ({ name: 'Corvell Ford feeder', otdrToleranceM: 25 }),
+    shape: projectSchema,
     ok: [200],
   }),
   'POST /api/projects/:projectId/cables': json({
@@ -119,6 +133,7 @@ const recipes: Record<string, Recipe> = {
       fiberType: 'os2',
       lengthM: 800,
     }),
+    shape: cableSchema,
     ok: [201],
   }),
   'PATCH /api/cables/:cableId': json({
@@ -126,6 +141,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.cableId,
     path: (id) => `/api/cables/${id}`,
     sample: () => ({ lengthM: 1200 }),
+    shape: cableSchema,
     ok: [200],
   }),
   'POST /api/projects/:projectId/closures': json({
@@ -133,6 +149,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.projectId,
     path: (id) => `/api/projects/${id}/closures`,
     sample: () => ({ id: uuidv7(), label: 'FZ-01 Mill Lane', kind: 'dome', roadside: false }),
+    shape: closureSchema,
     ok: [201],
   }),
   'PATCH /api/closures/:closureId': json({
@@ -140,6 +157,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.closureId,
     path: (id) => `/api/closures/${id}`,
     sample: () => ({ lat: 41.2, lon: -95.9 }),
+    shape: closureSchema,
     ok: [200],
   }),
   'PUT /api/closures/:closureId/assignment': json({
@@ -154,6 +172,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.closureId,
     path: (id) => `/api/closures/${id}/trays`,
     sample: () => ({ id: uuidv7(), number: 900 + Math.floor(Math.random() * 99), capacity: 12 }),
+    shape: traySchema,
     ok: [201],
   }),
   'PATCH /api/trays/:trayId': json({
@@ -161,6 +180,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.trayId,
     path: (id) => `/api/trays/${id}`,
     sample: () => ({ capacity: 24 }),
+    shape: traySchema,
     ok: [200],
   }),
   'POST /api/closures/:closureId/plan': json({
@@ -176,6 +196,7 @@ const recipes: Record<string, Recipe> = {
       cableBId: i.cable2Id,
       fiberB: 1,
     }),
+    shape: planRowSchema,
     ok: [201],
   }),
   'POST /api/closures/:closureId/plan/csv': {
@@ -198,6 +219,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.rowId,
     path: (id) => `/api/plan-rows/${id}`,
     sample: () => ({ slot: 3 }),
+    shape: planRowSchema,
     ok: [200],
   }),
   // A real row is deleted once (204), then answers 404; bodies are ignored.
@@ -224,6 +246,7 @@ const recipes: Record<string, Recipe> = {
         },
       ],
     }),
+    shape: pushResponseSchema,
     ok: [200],
     alsoRefuses: [503],
   }),
@@ -253,6 +276,7 @@ const recipes: Record<string, Recipe> = {
       crewId: i.crewId,
       password: 'a long enough password',
     }),
+    shape: userSchema,
     ok: [201],
   }),
   'PATCH /api/users/:userId': json({
@@ -260,12 +284,14 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.userId,
     path: (id) => `/api/users/${id}`,
     sample: () => ({ name: 'Walt Emberley' }),
+    shape: userSchema,
     ok: [200],
   }),
   'POST /api/crews': json({
     as: 'office',
     path: () => '/api/crews',
     sample: () => ({ id: uuidv7(), name: 'Crew Fuzz' }),
+    shape: crewSchema,
     ok: [201],
   }),
   'PATCH /api/crews/:crewId': json({
@@ -273,6 +299,7 @@ const recipes: Record<string, Recipe> = {
     id: (i) => i.crewId,
     path: (id) => `/api/crews/${id}`,
     sample: () => ({ name: 'Crew Vault' }),
+    shape: crewSchema,
     ok: [200],
   }),
   'PUT /api/crews/:crewId/day': json({
@@ -294,6 +321,7 @@ const recipes: Record<string, Recipe> = {
         },
       ],
     }),
+    shape: otdrImportResultSchema,
     ok: [200, 201],
   }),
   'POST /api/invitations': json({
@@ -558,6 +586,10 @@ async function attempt(key: string, recipe: Recipe, a: Attempt): Promise<void> {
       expect(res.type).toBe('application/json')
       expect(typeof res.body === 'object' && res.body !== null && !Array.isArray(res.body)).toBe(true)
       expect(errorBodySchema.safeParse(res.body).success).toBe(false)
+      if (recipe.shape) {
+        const parsed = recipe.shape.safeParse(res.body)
+        expect(parsed.success, `${key}: ${parsed.error?.message ?? ''}`).toBe(true)
+      }
     }
     tally.accepted += 1
     current = fingerprint(t.database)
