@@ -1,3 +1,5 @@
+// First: zod must not probe for eval under the CSP (see boot/zod.ts).
+import '@/boot/zod'
 import { createApp } from 'vue'
 import { createPinia } from 'pinia'
 import { Quasar } from 'quasar'

@@ -70,7 +70,9 @@ export function closuresRouter(ctx: AppContext): Router {
     express.text({ type: ['text/csv', 'text/plain'], limit: '2mb' }),
     (req, res) => {
       if (typeof req.body !== 'string' || req.body.length === 0) {
-        throw new AppError('invalid_csv', 'Send the plan as a text/csv body.', 400)
+        throw new AppError('invalid_csv', 'Send the plan as a text/csv body.', 400, [
+          { row: 1, field: 'file', code: 'empty', message: 'The file is empty: start with the header line.' },
+        ])
       }
       res.status(201).json(plans.uploadPlanCsv(ctx, res.locals.actor, req.params.closureId, req.body))
     },

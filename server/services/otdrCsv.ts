@@ -1,4 +1,5 @@
 import { parse as parseCsv } from 'csv-parse/sync'
+import { csvErrorLine } from './csv'
 import { otdrCsvColumns, otdrCsvRowSchema, type OtdrCsvRow, type OtdrRowProblem } from '#shared/schemas/otdr'
 
 /** A downloadable starting point for the OTDR CSV: one trace from each end of one fiber at 1550 nm. */
@@ -28,7 +29,7 @@ export function readOtdrCsv(
   } catch (error) {
     return {
       rows: [],
-      problems: [{ file: fileName, row: 1, field: null, message: `The file is not readable CSV: ${(error as Error).message}` }],
+      problems: [{ file: fileName, row: csvErrorLine(error), field: null, message: `The file is not readable CSV: ${(error as Error).message}` }],
     }
   }
   const [header, ...body] = records

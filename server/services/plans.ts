@@ -14,6 +14,7 @@ import {
 } from '#shared/schemas/index'
 import type { AppContext } from '../context'
 import { AppError, notFound } from '../errors'
+import { csvErrorLine } from './csv'
 import type { Actor } from '../middleware/auth'
 import { recordEvent, recordFieldChanges } from '../repositories/audit'
 import { dbOf, recordsOf } from '../repositories/records'
@@ -187,7 +188,10 @@ export function uploadPlanCsv(ctx: AppContext, actor: Actor, closureId: unknown,
       trim: true,
     }) as string[][]
   } catch (error) {
-    throw new AppError('invalid_csv', `The file is not readable CSV: ${(error as Error).message}`, 400)
+    const message = `The file is not readable CSV: ${(error as Error).message}`
+    throw new AppError('invalid_csv', message, 400, [
+      { row: csvErrorLine(error), field: 'file', code: 'unreadable', message },
+    ])
   }
   const [header, ...body] = records
   const expected = planCsvColumns.join(',')
@@ -196,7 +200,10 @@ export function uploadPlanCsv(ctx: AppContext, actor: Actor, closureId: unknown,
       { row: 1, field: 'header', code: 'bad_header', message: `Expected ${expected}` },
     ])
   }
-  if (body.length === 0) throw new AppError('invalid_csv', 'The file has no plan rows.', 400)
+  if (body.length === 0)
+    throw new AppError('invalid_csv', 'The file has no plan rows.', 400, [
+      { row: 2, field: 'row', code: 'no_rows', message: 'Add one planned pair per line after the header.' },
+    ])
   const cableByLabel = new Map(refs.cables.map((c) => [c.label.toLowerCase(), c]))
   const trayByNumber = new Map(refs.trays.map((t) => [t.number, t]))
   const problems: { row: number; field: string; code: string; message: string }[] = []
