@@ -6,6 +6,10 @@ import { useSpliceLog } from './useSpliceLog'
 import { useNoticeStore } from '@/stores/notice'
 import type { CableRow } from '@/idb/schema'
 
+function afterPaint(): Promise<void> {
+  return new Promise((resolve) => requestAnimationFrame(() => setTimeout(resolve, 0)))
+}
+
 /** The splicer's walk through one tray: open a slot, save, move on to the next planned slot still to do. */
 export function useTrayWork(
   data: Ref<ClosureData | null | undefined>,
@@ -113,7 +117,9 @@ export function useTrayWork(
           message: entry.edit ? 'Splice changed.' : 'Saved. No planned slot left to do in this tray.',
         })
       } else {
-        open(next)
+        // The next slot's panel is built after the saved slot has been painted, not in the same frame.
+        await afterPaint()
+        if (openSlot.value === entry.slot) open(next)
         notices.show({ kind: 'done', message: `Saved slot ${entry.slot}. Next: slot ${next}.` }, 1500)
       }
     } catch (error) {
