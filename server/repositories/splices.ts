@@ -2,7 +2,7 @@ import type BetterSqlite3 from 'better-sqlite3'
 import { type Conn, rawSqlite, type Sqlite } from '#db/client'
 import type { photoLinks, splices } from '#db/schema/index'
 import { dbEpsilon, toMilliDb } from '#shared/domain/loss'
-import { type FiberPair, pairKey, samePair } from '#shared/domain/plan'
+import { type FiberPair, samePair } from '#shared/domain/plan'
 import { type RollupSplice, totalsOf } from '#shared/domain/rollup'
 import type { ProjectLimits } from '#shared/schemas/project'
 
@@ -294,8 +294,8 @@ export function insertSplice(
     limits: ProjectLimits
     pending?: PendingTotals
     known?: KnownBeforeInsert
-    /** Plan rows per `closureId|pairKey`, kept by the caller while no plan row can change (a push batch). */
-    planPairs?: Map<string, number>
+    /** Plan rows joining a pair, kept by the caller while no plan row can change (a push batch). */
+    planPairs?: PlanPairCounts
   },
 ): InsertSpliceResult {
   const sqlite = rawSqlite(conn)
@@ -328,13 +328,12 @@ export function insertSplice(
   const removed = old !== undefined && old.isCurrent === 1 && old.deleted === 0 ? old : undefined
 
   // Everything is read before the write, and the new state worked out from it rather than read again.
-  const counts = options.planPairs ?? new Map<string, number>()
+  const counts = options.planPairs
   const planRowsWith = (pair: FiberPair) => {
-    const key = `${closureId}|${pairKey(pair)}`
-    let n = counts.get(key)
+    let n = counts?.get(closureId, pair)
     if (n === undefined) {
       n = st.planRowsWithPair.get({ closureId, ...pairOf(pair) })?.n ?? 0
-      counts.set(key, n)
+      counts?.set(closureId, pair, n)
     }
     return n
   }
@@ -426,6 +425,12 @@ export function insertSplice(
   if (options.pending) options.pending.stage(closureId, limits, delta)
   else addToTotals(sqlite, closureId, limits, delta)
   return { supersededId: old?.id ?? null, supersededWasCurrent: old?.isCurrent === 1 }
+}
+
+/** How many live plan rows of a closure join a pair (either orientation), as far as the keeper knows. */
+export interface PlanPairCounts {
+  get(closureId: string, pair: FiberPair): number | undefined
+  set(closureId: string, pair: FiberPair, count: number): void
 }
 
 /**

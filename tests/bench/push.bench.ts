@@ -420,7 +420,8 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
       // rows the push stored, as stored, into the same schema (same indexes), with one prepared statement,
       // committed 100 rows at a time as the push commits its batches (same durability: synchronous=FULL).
       {
-        figure: 'baseline: raw insert of the same splice rows, same indexes, 100-row commits between the pushes',
+        figure:
+          'baseline: raw insert of the same splice rows, same indexes, 100-row commits between the pushes',
         target: null,
         measured: api.interleavedRawMs / 1000,
         unit: 's',
