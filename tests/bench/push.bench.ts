@@ -406,7 +406,7 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
     const api = [...runs].sort((a, b) => a.pushMs - b.pushMs)[Math.floor(repeats / 2)]!
     const { rawMs, rawBatchedMs, rawStoredMs } = api
     const ratio = median(runs.map((run) => (100 * run.interleavedRawMs) / run.pushMs))
-    // Savepoint journals spill to temp files past a few pages; one mutation's pages come close.
+    // Statement journals, and the savepoints of a batch run again guarded, spill to temp files past a few pages.
     const before = await pushThroughApi(dir, 'temp-default', shape, { tempStoreDefault: true })
     log(`with SQLite's default temp_store: ${before.pushMs.toFixed(0)} ms`)
     return [
