@@ -247,7 +247,13 @@ async function pushThroughApi(
   dir: string,
   name: string,
   shape: ReturnType<typeof layout>,
-  options: { splices?: number; tempStoreDefault?: boolean; interleaved?: Database } = {},
+  options: {
+    splices?: number
+    tempStoreDefault?: boolean
+    interleaved?: Database
+    /** Make the middle mutation of every batch one the server refuses (a slot the tray does not have). */
+    refuseOnePerBatch?: boolean
+  } = {},
 ) {
   const count = options.splices ?? spliceCount
   const api = build(dir, name, shape)
@@ -283,7 +289,10 @@ async function pushThroughApi(
         return {
           seq: n + 1,
           name: 'createSplice',
-          args: spliceArgsFor(api.world, clientId, n),
+          args: {
+            ...spliceArgsFor(api.world, clientId, n),
+            ...(options.refuseOnePerBatch && i === maxMutationsPerPush / 2 ? { slot: slotsPerTray + 1 } : {}),
+          },
           baseServerSeq: headSeq,
           clientTime: new Date().toISOString(),
         }
@@ -307,7 +316,10 @@ async function pushThroughApi(
       })
       const parsed = pushResponseSchema.parse(await res.json())
       pushMs += performance.now() - sent
-      const refused = parsed.results.find((r) => r.status !== 'applied')
+      const refused = parsed.results.find(
+        (r, i) =>
+          r.status !== (options.refuseOnePerBatch && i === maxMutationsPerPush / 2 ? 'rejected' : 'applied'),
+      )
       if (res.status !== 200 || refused)
         throw new Error(`push failed: ${res.status} ${JSON.stringify(refused)}`)
       if (rawBatch) {
@@ -348,7 +360,8 @@ async function pushThroughApi(
       string,
       unknown
     >
-    if (splices.length !== count || answers.length !== count)
+    const refusedCount = options.refuseOnePerBatch ? count / maxMutationsPerPush : 0
+    if (splices.length !== count - refusedCount || answers.length !== count)
       throw new Error('the push stored other rows than sent')
     return {
       pushMs,
@@ -409,6 +422,9 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
     // Statement journals, and the savepoints of a batch run again guarded, spill to temp files past a few pages.
     const before = await pushThroughApi(dir, 'temp-default', shape, { tempStoreDefault: true })
     log(`with SQLite's default temp_store: ${before.pushMs.toFixed(0)} ms`)
+    // A refusal sends its whole batch round again with a savepoint per mutation: the worst case of that.
+    const refusing = await pushThroughApi(dir, 'one-refused', shape, { refuseOnePerBatch: true })
+    log(`with one refused mutation in every batch: ${refusing.pushMs.toFixed(0)} ms`)
     return [
       {
         figure: `push 10,000 createSplice over HTTP (100 × 100), median of ${repeats}`,
@@ -476,6 +492,14 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
         target: null,
         measured: api.pullMs,
         unit: 'ms',
+      },
+      {
+        figure:
+          'push 10,000 with one refused mutation in every batch (each batch run again guarded), one run',
+        target: null,
+        measured: refusing.pushMs / 1000,
+        unit: 's',
+        baseline: api.pushMs / 1000,
       },
       {
         figure: "push 10,000 with SQLite's default temp_store (one run, for comparison)",
