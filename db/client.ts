@@ -40,9 +40,10 @@ export function openDatabase(file: string): Database {
   // 64 MiB of page cache instead of 2 MiB: writes scattered over a large file re-read every uncached page
   // (tests/bench/board.bench.ts, re-splices over 1,000 closures of 1M splices: 0.49 → 0.37 ms each).
   sqlite.pragma('cache_size = -65536')
-  // Every pushed mutation runs in a savepoint, whose statement journal SQLite spills to a temp file past a
-  // few pages; in memory it costs no file I/O (tests/bench/push.bench.ts: −1 s of 3.7 s for 10,000 splices).
-  // A statement journal holds one mutation's pages at most, so the memory stays small.
+  // Savepoints (every mutation of a push batch run again guarded, every write transaction nested in another)
+  // keep a statement journal that SQLite spills to a temp file past a few pages; in memory it costs no file
+  // I/O (tests/bench/push.bench.ts, when every mutation had one: −1 s of 3.7 s for 10,000 splices). A
+  // statement journal holds one savepoint's pages at most, so the memory stays small.
   sqlite.pragma('temp_store = MEMORY')
   const db = drizzleOver(sqlite)
   drizzleHandles.set(sqlite, db)

@@ -2,7 +2,7 @@ import type BetterSqlite3 from 'better-sqlite3'
 import { type Conn, rawSqlite, type Sqlite } from '#db/client'
 import type { photoLinks, splices } from '#db/schema/index'
 import { dbEpsilon, toMilliDb } from '#shared/domain/loss'
-import { type FiberPair, pairKey, samePair } from '#shared/domain/plan'
+import { type FiberPair, samePair } from '#shared/domain/plan'
 import { type RollupSplice, totalsOf } from '#shared/domain/rollup'
 import type { ProjectLimits } from '#shared/schemas/project'
 
@@ -289,7 +289,14 @@ function lossPart(splice: JudgedSplice, limits: ProjectLimits) {
 export function insertSplice(
   conn: Conn,
   splice: SpliceInput,
-  options: { serverSeq: number; limits: ProjectLimits; pending?: PendingTotals },
+  options: {
+    serverSeq: number
+    limits: ProjectLimits
+    pending?: PendingTotals
+    known?: KnownBeforeInsert
+    /** Plan rows joining a pair, kept by the caller while no plan row can change (a push batch). */
+    planPairs?: PlanPairCounts
+  },
 ): InsertSpliceResult {
   const sqlite = rawSqlite(conn)
   const st = statements(sqlite)
@@ -321,25 +328,32 @@ export function insertSplice(
   const removed = old !== undefined && old.isCurrent === 1 && old.deleted === 0 ? old : undefined
 
   // Everything is read before the write, and the new state worked out from it rather than read again.
-  const counts = new Map<string, number>()
+  const counts = options.planPairs
   const planRowsWith = (pair: FiberPair) => {
-    const key = pairKey(pair)
-    let n = counts.get(key)
+    let n = counts?.get(closureId, pair)
     if (n === undefined) {
       n = st.planRowsWithPair.get({ closureId, ...pairOf(pair) })?.n ?? 0
-      counts.set(key, n)
+      counts?.set(closureId, pair, n)
     }
     return n
   }
+  const { known } = options
   // Plan rows logged only through `splice`: none while another current splice joins its pair too.
   const loggedOnlyBy = (splice: JudgedSplice) => {
     const rows = planRowsWith(splice)
     if (rows === 0) return 0
-    const params = { closureId, ...pairOf(splice), exceptId: removed?.id ?? null }
+    const exceptId = removed?.id ?? null
+    // Every current splice joining the added pair shares a fiber end with it, so it is among the neighbours.
+    if (known && splice === added)
+      return known.neighbours.some((n) => n.id !== exceptId && samePair(n, splice)) ? 0 : rows
+    const params = { closureId, ...pairOf(splice), exceptId }
     return st.otherCurrentWithPair.get(params)?.has === 1 ? 0 : rows
   }
   const mismatched = (splice: JudgedSplice) => {
-    const row = st.planAtSlot.get(splice.trayId, splice.slot, closureId)
+    const row =
+      known && splice === added
+        ? (known.planRow ?? undefined)
+        : st.planAtSlot.get(splice.trayId, splice.slot, closureId)
     return row === undefined || !samePair(row, splice) ? 1 : 0
   }
 
@@ -411,6 +425,22 @@ export function insertSplice(
   if (options.pending) options.pending.stage(closureId, limits, delta)
   else addToTotals(sqlite, closureId, limits, delta)
   return { supersededId: old?.id ?? null, supersededWasCurrent: old?.isCurrent === 1 }
+}
+
+/** How many live plan rows of a closure join a pair (either orientation), as far as the keeper knows. */
+export interface PlanPairCounts {
+  get(closureId: string, pair: FiberPair): number | undefined
+  set(closureId: string, pair: FiberPair, count: number): void
+}
+
+/**
+ * What the caller has already read, in the same transaction, for the splice it is about to insert: the live
+ * plan row at its tray slot (null: none), and the closure's current live splices sharing its slot or a fiber
+ * end (the attempt it replaces included), as syncReads spliceNeighbours reads them.
+ */
+export interface KnownBeforeInsert {
+  planRow: FiberPair | null
+  neighbours: ReadonlyArray<FiberPair & { id: string }>
 }
 
 /** What one write adds to a closure's totals row (counts as differences, losses as their worst). */

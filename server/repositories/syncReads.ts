@@ -61,6 +61,7 @@ interface Statements {
   user: BetterSqlite3.Statement<[string], Flagged<UserFacts>>
   spliceExists: BetterSqlite3.Statement<[string], { one: number }>
   planRow: BetterSqlite3.Statement<[string, string, number], SlottedPair>
+  closurePlan: BetterSqlite3.Statement<[string], SlottedPair>
   neighbours: BetterSqlite3.Statement<[Record<string, unknown>], NeighbourSplice>
   stamps: BetterSqlite3.Statement<[string], FieldStamp & { field: string }>
 }
@@ -84,6 +85,11 @@ function statements(sqlite: Sqlite): Statements {
       `SELECT tray_id AS trayId, slot, cable_a_id AS cableAId, fiber_a AS fiberA, cable_b_id AS cableBId,
          fiber_b AS fiberB
        FROM plan_rows WHERE closure_id = ? AND tray_id = ? AND slot = ? AND deleted = 0`,
+    ),
+    closurePlan: sqlite.prepare(
+      `SELECT tray_id AS trayId, slot, cable_a_id AS cableAId, fiber_a AS fiberA, cable_b_id AS cableBId,
+         fiber_b AS fiberB
+       FROM plan_rows WHERE closure_id = ? AND deleted = 0`,
     ),
     // Only the current splices that can raise fiber_reused or slot_reused for this one. With the five terms
     // ORed in one WHERE, SQLite reads every current splice row of the closure; split, the slot is a seek on
@@ -163,6 +169,11 @@ export function spliceIdTaken(conn: Conn, id: string): boolean {
 /** The live plan row at a tray slot of the closure, or null when the plan leaves it empty. */
 export function planRowAt(conn: Conn, closureId: string, trayId: string, slot: number): SlottedPair | null {
   return statements(rawSqlite(conn)).planRow.get(closureId, trayId, slot) ?? null
+}
+
+/** Every live plan row of the closure. */
+export function closurePlanRows(conn: Conn, closureId: string): SlottedPair[] {
+  return statements(rawSqlite(conn)).closurePlan.all(closureId)
 }
 
 /** The closure's other current splices sharing the slot or a fiber end with `splice`. */

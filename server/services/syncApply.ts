@@ -3,7 +3,7 @@ import { v7 as uuidv7 } from 'uuid'
 import type { Conn } from '#db/client'
 import { closures, notes, photoLinks, splices } from '#db/schema/index'
 import { assessSplice } from '#shared/domain/acceptance'
-import { samePair } from '#shared/domain/plan'
+import { type FiberPair, pairKey, samePair } from '#shared/domain/plan'
 import type { SlottedPair } from '#shared/domain/plan'
 import type { Role } from '#shared/schemas/enums'
 import type { ProjectLimits } from '#shared/schemas/project'
@@ -13,13 +13,21 @@ import { AppError } from '../errors'
 import type { Actor } from '../middleware/auth'
 import { type Change, recordEvent, recordFieldChanges } from '../repositories/audit'
 import { dbOf, recordsOf } from '../repositories/records'
-import { insertPhotoLink, insertSplice, loadProjectLimits, PendingTotals } from '../repositories/splices'
+import {
+  insertPhotoLink,
+  insertSplice,
+  type KnownBeforeInsert,
+  type PlanPairCounts,
+  loadProjectLimits,
+  PendingTotals,
+} from '../repositories/splices'
 import { tombstonePhotoLink, tombstoneSplice, updateSpliceFields } from '../repositories/spliceUpdates'
 import { closuresShowingPhoto, findPhoto } from '../repositories/photos'
 import {
   cableFacts,
   type ClosureFacts,
   closureFacts,
+  closurePlanRows,
   type CableFacts,
   type FieldStamp,
   planRowAt,
@@ -80,7 +88,8 @@ export interface BatchMemo {
   closures: Map<string, ClosureFacts | undefined>
   trays: Map<string, TrayFacts | undefined>
   cables: Map<string, CableFacts | undefined>
-  planRows: Map<string, SlottedPair | null>
+  /** Plan rows by closure, slot and pair (see BatchPlans). */
+  plans: BatchPlans
   /** Closure totals deltas of new splices, written when the batch settles (see settleTotals). */
   totals: PendingTotals
 }
@@ -91,8 +100,57 @@ export function newBatchMemo(): BatchMemo {
     closures: new Map(),
     trays: new Map(),
     cables: new Map(),
-    planRows: new Map(),
+    plans: new BatchPlans(),
     totals: new PendingTotals(),
+  }
+}
+
+/**
+ * The plan rows a batch's new splices are judged against (the slot's row, the rows joining a pair). No mutation
+ * writes plan rows, so what is read holds for the whole batch. A closure's rows are read one by one at first;
+ * from its `wholePlanAfter`-th splice in the batch on, its whole live plan is read once and answered from.
+ */
+export class BatchPlans implements PlanPairCounts {
+  static readonly wholePlanAfter = 4
+  private readonly slots = new Map<string, SlottedPair | null>()
+  private readonly pairs = new Map<string, number>()
+  private readonly uses = new Map<string, number>()
+  private readonly whole = new Set<string>()
+
+  /** Counts a new splice judged in the closure; reads its whole plan when the batch keeps coming back to it. */
+  touch(conn: Conn, closureId: string): void {
+    if (this.whole.has(closureId)) return
+    const uses = (this.uses.get(closureId) ?? 0) + 1
+    this.uses.set(closureId, uses)
+    if (uses < BatchPlans.wholePlanAfter) return
+    const pairs = new Map<string, number>()
+    for (const row of closurePlanRows(conn, closureId)) {
+      this.slots.set(`${closureId}|${row.trayId}|${row.slot}`, row)
+      const key = `${closureId}|${pairKey(row)}`
+      pairs.set(key, (pairs.get(key) ?? 0) + 1)
+    }
+    for (const [key, n] of pairs) this.pairs.set(key, n)
+    this.whole.add(closureId)
+  }
+
+  /** The live plan row at a tray slot of the closure, or null when the plan leaves it empty. */
+  rowAt(conn: Conn, closureId: string, trayId: string, slot: number): SlottedPair | null {
+    const key = `${closureId}|${trayId}|${slot}`
+    const found = this.slots.get(key)
+    if (found !== undefined) return found
+    if (this.whole.has(closureId)) return null
+    const row = planRowAt(conn, closureId, trayId, slot)
+    this.slots.set(key, row)
+    return row
+  }
+
+  get(closureId: string, pair: FiberPair): number | undefined {
+    const n = this.pairs.get(`${closureId}|${pairKey(pair)}`)
+    return n === undefined && this.whole.has(closureId) ? 0 : n
+  }
+
+  set(closureId: string, pair: FiberPair, count: number): void {
+    this.pairs.set(`${closureId}|${pairKey(pair)}`, count)
   }
 }
 
@@ -205,19 +263,30 @@ function assertFits(env: ApplyEnv, closure: ClosureFacts, splice: Placement): vo
     throw refuse('invalid', 'A fiber cannot be spliced to itself.')
 }
 
+/** The flags assessSplice gives, and the plan row and neighbours it judged them from. */
+function assessed(
+  env: ApplyEnv,
+  closure: ClosureFacts,
+  limits: ProjectLimits,
+  splice: Parameters<typeof assessSplice>[0],
+): { flags: string[]; known: KnownBeforeInsert } {
+  const planRow = env.memo.plans.rowAt(env.conn, closure.id, splice.trayId, splice.slot)
+  const neighbours = spliceNeighbours(env.conn, splice)
+  const { flags } = assessSplice(splice, limits, {
+    planRow,
+    otherCurrentSplices: neighbours,
+    closureState: closure.state,
+  })
+  return { flags, known: { planRow, neighbours } }
+}
+
 function flagsFor(
   env: ApplyEnv,
   closure: ClosureFacts,
   limits: ProjectLimits,
   splice: Parameters<typeof assessSplice>[0],
 ): string[] {
-  return assessSplice(splice, limits, {
-    planRow: memoised(env.memo.planRows, `${closure.id}|${splice.trayId}|${splice.slot}`, () =>
-      planRowAt(env.conn, closure.id, splice.trayId, splice.slot),
-    ),
-    otherCurrentSplices: spliceNeighbours(env.conn, splice),
-    closureState: closure.state,
-  }).flags
+  return assessed(env, closure, limits, splice).flags
 }
 
 function setClosure(env: ApplyEnv, before: Record<string, unknown>, id: string, patch: object): void {
@@ -246,10 +315,13 @@ function createSplice(env: ApplyEnv, args: unknown, name: 'createSplice' | 'resp
       throw refuse('invalid', `This attempt must come after attempt ${old.attempt} it replaces.`)
   }
   const limits = limitsOf(env, closure.projectId)
+  env.memo.plans.touch(env.conn, closure.id)
+  // The plan row and neighbours the flags were judged from also settle the totals deltas: no second read.
+  const { flags, known } = assessed(env, closure, limits, input)
   insertSplice(
     env.conn,
-    { ...input, flags: flagsFor(env, closure, limits, input), reviewState: null, createdAt: env.at },
-    { serverSeq: env.serverSeq, limits, pending: env.memo.totals },
+    { ...input, flags, reviewState: null, createdAt: env.at },
+    { serverSeq: env.serverSeq, limits, pending: env.memo.totals, known, planPairs: env.memo.plans },
   )
   recordEvent(env.conn, change(env, 'splice', input.id), 'created', input)
   // The first splice starts the work on a closure.

@@ -51,7 +51,12 @@ export const mutationSchema = z
   .object({
     seq: z.number().int().min(1),
     name: mutationNameSchema,
-    args: z.record(z.string(), z.unknown()),
+    // Any JSON object: its keys are strings already, and the mutation's own schema checks it when applied.
+    // (A record schema would check and copy every key of every pushed mutation: a sixth of the envelope.)
+    args: z.custom<Record<string, unknown>>(
+      (value) => typeof value === 'object' && value !== null && !Array.isArray(value),
+      'The arguments of a change are a JSON object.',
+    ),
     /** The highest server change the device had seen when the user made the edit (conflict detection). */
     baseServerSeq: z.number().int().min(0),
     /** Device clock at the edit; stored as recorded, orders nothing. */

@@ -162,3 +162,46 @@ describe('per-field conflicts', () => {
     expect(fresh.results[0]).toEqual({ seq: 3, status: 'applied' })
   })
 })
+
+describe('a refusal after some of the mutation’s writes', () => {
+  it('when an edit wrote its lost value and then is refused, then only that edit is taken back and the batch around it applies', async () => {
+    await pushOk(t, 'foreman', foremanTablet, [update(1, { lossDb: 0.09 })])
+    const other = spliceArgs(plannedSlot(t, 'VLT-01', 2, 13), userId(t, 'splicer'), phone)
+    const seqBefore = one<{ value: number }>('SELECT value FROM change_seq').value
+    // The conflicting loss is written to the audit trail as conflict_lost before slot 99 is found not to fit.
+    const body = await pushOk(t, 'splicer', phone, [
+      update(2, { lossDb: 0.04, slot: 99 }),
+      mutation(3, 'createSplice', other),
+      update(4, { notes: 'Sleeve re-seated.' }),
+    ])
+    expect(pushResponseSchema.parse(body).results.map((r) => [r.seq, r.status, r.code])).toEqual([
+      [2, 'rejected', 'invalid'],
+      [3, 'applied', undefined],
+      [4, 'applied', undefined],
+    ])
+    expect(lostRows()).toEqual([])
+    expect(splice()).toMatchObject({ loss_db: 0.09, slot: 12, notes: 'Sleeve re-seated.' })
+    expect(one('SELECT id FROM splices WHERE id = ?', other.id)).toEqual({ id: other.id })
+    expect(all('SELECT seq, code FROM rejected_mutations')).toEqual([{ seq: 2, code: 'invalid' }])
+    const audit = all<{ mutation_seq: number; field: string | null; outcome: string }>(
+      'SELECT mutation_seq, field, outcome FROM audit_log WHERE client_id = ? AND mutation_seq > 1 ORDER BY id',
+      phone,
+    )
+    expect(audit).toEqual([
+      { mutation_seq: 2, field: null, outcome: 'rejected' },
+      { mutation_seq: 3, field: null, outcome: 'created' },
+      { mutation_seq: 4, field: 'notes', outcome: 'applied' },
+    ])
+    // Each applied mutation took one change sequence value; the refused one's went back with its writes.
+    const stamps = all<{ seq: number; serverSeq: number | null }>(
+      "SELECT seq, json_extract(result, '$.serverSeq') AS serverSeq FROM applied_mutations WHERE client_id = ? AND seq > 1 ORDER BY seq",
+      phone,
+    )
+    expect(stamps).toEqual([
+      { seq: 2, serverSeq: null },
+      { seq: 3, serverSeq: seqBefore + 1 },
+      { seq: 4, serverSeq: seqBefore + 2 },
+    ])
+    expect(one<{ value: number }>('SELECT value FROM change_seq').value).toBe(seqBefore + 2)
+  })
+})

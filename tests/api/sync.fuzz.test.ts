@@ -32,6 +32,14 @@ beforeAll(async () => {
 })
 afterAll(() => t.close())
 
+/** A note on the vault the foreman may write. */
+const validNote = () => ({
+  id: newClientId(),
+  entity: 'closure',
+  entityId: validSplice.closureId,
+  body: 'Fuzz note.',
+})
+
 const junk = fc.oneof(
   fc.constant(null),
   fc.boolean(),
@@ -173,14 +181,15 @@ describe('bad input to push and pull', () => {
       ),
       {
         numRuns: 150,
-        // Always among the runs, whatever the seed: a repeated seq (duplicate) and a skipped one (gap).
+        // Always among the runs, whatever the seed: a repeated seq of an applied change (duplicate; a refused
+        // one is answered as refused again) and a skipped seq (gap).
         examples: [
           [
             [
-              { name: 'addNote', args: {}, step: 1, baseServerSeq: 0 },
-              { name: 'addNote', args: {}, step: 0, baseServerSeq: 0 },
+              { name: 'addNote', args: validNote(), step: 1, baseServerSeq: 0 },
+              { name: 'addNote', args: validNote(), step: 0, baseServerSeq: 0 },
             ],
-            false,
+            true,
           ],
           [[{ name: 'addNote', args: {}, step: 2, baseServerSeq: 0 }], false],
         ],

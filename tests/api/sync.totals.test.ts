@@ -132,6 +132,26 @@ function toMutations(commands: Command[]) {
   return made
 }
 
+/** Every live splice's plan_mismatch flag follows its slot's plan row, and both closures' totals equal a rebuild. */
+function expectTotalsAndFlagsRebuilt(): void {
+  // A splice is flagged plan_mismatch exactly when its slot's plan row joins another pair (or none).
+  const flagged = all<{ flagged: number; off: number }>(
+    `SELECT instr(s.flags, '"plan_mismatch"') > 0 AS flagged,
+       (p.id IS NULL OR NOT ((p.cable_a_id = s.cable_a_id AND p.fiber_a = s.fiber_a AND p.cable_b_id = s.cable_b_id
+         AND p.fiber_b = s.fiber_b) OR (p.cable_a_id = s.cable_b_id AND p.fiber_a = s.fiber_b
+         AND p.cable_b_id = s.cable_a_id AND p.fiber_b = s.fiber_a))) AS off
+     FROM splices s LEFT JOIN plan_rows p
+       ON p.closure_id = s.closure_id AND p.tray_id = s.tray_id AND p.slot = s.slot AND p.deleted = 0
+     WHERE s.deleted = 0`,
+  )
+  for (const row of flagged) expect(row.flagged).toBe(row.off)
+  for (const closureId of [slots[0]!.closureId, slots[12]!.closureId]) {
+    const kept = one('SELECT * FROM closure_totals WHERE closure_id = ?', closureId)
+    t.database.sqlite.transaction(() => recomputeClosureTotals(t.database.sqlite, closureId, limits))()
+    expect(one('SELECT * FROM closure_totals WHERE closure_id = ?', closureId)).toEqual(kept)
+  }
+}
+
 describe('closure totals under random pushes', () => {
   it('when any sequence of splice, re-splice, edit, delete and photo mutations is pushed, then totals equal a rebuild', async () => {
     const statuses = { applied: 0, other: 0 }
@@ -142,15 +162,36 @@ describe('closure totals under random pushes', () => {
         const body = await pushOk(t, 'splicer', client, mutations)
         expect(body.results).toHaveLength(mutations.length)
         for (const result of body.results) statuses[result.status === 'applied' ? 'applied' : 'other'] += 1
-        for (const closureId of [slots[0]!.closureId, slots[12]!.closureId]) {
-          const kept = one('SELECT * FROM closure_totals WHERE closure_id = ?', closureId)
-          t.database.sqlite.transaction(() => recomputeClosureTotals(t.database.sqlite, closureId, limits))()
-          expect(one('SELECT * FROM closure_totals WHERE closure_id = ?', closureId)).toEqual(kept)
-        }
+        expectTotalsAndFlagsRebuilt()
       }),
       { numRuns: 40 },
     )
     // Most commands are meant to apply; a run of refusals would prove nothing about the totals.
     expect(statuses.applied).toBeGreaterThan(3 * statuses.other)
+  })
+
+  it('when one batch brings many new splices to a closure, on plan, off plan and in the wrong slot, then flags and totals hold', async () => {
+    // More than BatchPlans.wholePlanAfter new splices in each closure, so the batch reads the whole plan.
+    const commands: Command[] = [
+      ...Array.from({ length: 10 }, (_, i): Command => ({
+        kind: 'create',
+        slot: i,
+        loss: 0.02,
+        offPlan: i % 3 === 1,
+      })),
+      ...Array.from({ length: 8 }, (_, i): Command => ({
+        kind: 'create',
+        slot: 12 + i,
+        loss: null,
+        offPlan: i === 5,
+      })),
+      { kind: 'create', slot: 0, loss: 0.03, offPlan: false },
+      { kind: 'resplice', pick: 0, loss: 0.01 },
+      { kind: 'update', pick: 1, loss: 0.04, slot: 7 },
+    ]
+    const mutations = toMutations(commands)
+    const body = await pushOk(t, 'splicer', client, mutations)
+    expect(body.results.map((r) => r.status)).toEqual(mutations.map(() => 'applied'))
+    expectTotalsAndFlagsRebuilt()
   })
 })
