@@ -1,7 +1,7 @@
 import { z } from 'zod'
 import { otdrEventKinds } from '../domain/otdr'
 import { labelSchema, limitDbSchema } from './common'
-import { wavelengthSchema } from './enums'
+import { wavelengthSchema, wavelengths } from './enums'
 
 /** The columns of Lightseam's OTDR event CSV, in order: one row per event, the trace's fields repeated on each. */
 export const otdrCsvColumns = [
@@ -84,14 +84,46 @@ export const otdrImportResultSchema = z.object({
 })
 export type OtdrImportResult = z.infer<typeof otdrImportResultSchema>
 
-/** Loss budget allowances a project sets; a null field falls back to the TIA-568.3-D default. */
+const dbPerKmSchema = z.number().min(0).max(10).multipleOf(0.001)
+
+/** Loss budget allowances a project sets; a null field (or a wavelength not listed) falls back to the TIA-568.3-D default. */
 export const lossBudgetSettingsSchema = z.strictObject({
-  attenuationDbPerKm: z.number().min(0).max(10).nullable(),
+  /** Cable attenuation (dB/km) for every wavelength not listed below. */
+  attenuationDbPerKm: dbPerKmSchema.nullable(),
+  /** Cable attenuation of particular wavelengths. */
+  attenuationByWavelength: z
+    .array(z.strictObject({ wavelength: wavelengthSchema, dbPerKm: dbPerKmSchema }))
+    .max(wavelengths.length)
+    .superRefine((rows, ctx) => {
+      const seen = new Set<number>()
+      rows.forEach((row, i) => {
+        if (seen.has(row.wavelength))
+          ctx.addIssue({ code: 'custom', path: [i, 'wavelength'], message: `${row.wavelength} nm is listed twice.` })
+        seen.add(row.wavelength)
+      })
+    }),
   spliceLossDb: limitDbSchema.nullable(),
   connectorPairLossDb: limitDbSchema.nullable(),
-  marginDb: z.number().min(0).max(50).nullable(),
+  marginDb: z.number().min(0).max(50).multipleOf(0.001).nullable(),
 })
 export type LossBudgetSettings = z.infer<typeof lossBudgetSettingsSchema>
+
+const allowanceSchema = z.object({ value: z.number(), source: z.string() })
+export const effectiveAllowancesSchema = z.object({
+  wavelengthNm: z.number(),
+  attenuationDbPerKm: allowanceSchema,
+  spliceLossDb: allowanceSchema,
+  connectorPairLossDb: allowanceSchema,
+  marginDb: allowanceSchema,
+})
+
+/** The answer of GET/PUT /api/projects/:projectId/loss-budget: what the project set and what each wavelength's budget uses. */
+export const lossBudgetViewSchema = z.object({
+  projectId: z.string(),
+  settings: lossBudgetSettingsSchema,
+  effective: z.array(effectiveAllowancesSchema),
+})
+export type LossBudgetView = z.infer<typeof lossBudgetViewSchema>
 
 export const fiberPathQuerySchema = z.strictObject({
   cableId: z.uuid(),

@@ -96,8 +96,16 @@ describe('OTDR import', () => {
     expect(path.body.aEnd).toEqual({ kind: 'terminal' })
     expect(path.body.bEnd.kind).toBe('dead_end')
     const b1550 = path.body.budgets.find((b: { wavelengthNm: number }) => b.wavelengthNm === 1550)
-    // TIA-568.3-D allowances (REFERENCE.md §2, from memory): 1.636 km × 0.5 + 1 splice × 0.3 + 1 connector pair × 0.75.
+    // The default allowances, each as REFERENCE.md §2 gives it: 1.636 km × 0.5 dB/km (single-mode outside plant,
+    // ANSI/TIA-568.3-D — from memory) + 1 splice × 0.3 dB (ANSI/TIA-568.3-D 2016 — from memory; ISO/IEC 11801 the
+    // same) + 1 mated connector pair × 0.75 dB (ANSI/TIA-568.3-D 2016), summed as in §5 (ITU-T G.652 Appendix I).
+    // The §5 worked example (10 km at 1310 nm → 7.51 dB) runs through linkLoss in tests/unit/shared/budget.test.ts.
     expect(b1550.allowedDb).toBeCloseTo(0.818 + 0.3 + 0.75, 9)
+    expect(b1550.allowances).toMatchObject({
+      attenuationDbPerKm: { value: 0.5, source: expect.stringContaining('from memory') },
+      spliceLossDb: { value: 0.3, source: expect.stringContaining('from memory') },
+      connectorPairLossDb: { value: 0.75, source: 'ANSI/TIA-568.3-D (2016), mated connector pair' },
+    })
     expect(b1550.splices[0]).toMatchObject({ source: 'measured', lossDb: expect.closeTo(0.15, 9) })
     expect(b1550.marginDb).toBeCloseTo(0.15, 9)
     expect(b1550.measuredEndToEndDb).toBeCloseTo(0.925, 9)
