@@ -17,12 +17,13 @@ interface SettingsRow {
 /** A project's stored loss budget settings; a project that set none gets every default. */
 export function readBudgetSettings(sqlite: Sqlite, projectId: string): BudgetSettings {
   const row = sqlite.prepare('SELECT * FROM loss_budget_settings WHERE project_id = ?').get(projectId) as
-    | SettingsRow
-    | undefined
+    SettingsRow | undefined
   if (!row) return { ...noBudgetSettings, attenuationByWavelength: [] }
   return {
     attenuationDbPerKm: row.attenuation_db_per_km,
-    attenuationByWavelength: JSON.parse(row.attenuation_by_wavelength) as BudgetSettings['attenuationByWavelength'],
+    attenuationByWavelength: JSON.parse(
+      row.attenuation_by_wavelength,
+    ) as BudgetSettings['attenuationByWavelength'],
     spliceLossDb: row.splice_loss_db,
     connectorPairLossDb: row.connector_pair_loss_db,
     marginDb: row.margin_db,
@@ -45,7 +46,12 @@ export function getLossBudget(ctx: AppContext, actor: Actor, projectId: unknown)
 }
 
 /** Replaces the project's loss budget settings (null = the default); each changed field is audited. */
-export function putLossBudget(ctx: AppContext, actor: Actor, projectId: unknown, body: unknown): LossBudgetView {
+export function putLossBudget(
+  ctx: AppContext,
+  actor: Actor,
+  projectId: unknown,
+  body: unknown,
+): LossBudgetView {
   const project = getProject(ctx, actor, projectId)
   const input = lossBudgetSettingsSchema.parse(body)
   const { sqlite } = ctx.database
@@ -59,7 +65,11 @@ export function putLossBudget(ctx: AppContext, actor: Actor, projectId: unknown,
            attenuation_by_wavelength = excluded.attenuation_by_wavelength, splice_loss_db = excluded.splice_loss_db,
            connector_pair_loss_db = excluded.connector_pair_loss_db, margin_db = excluded.margin_db`,
       )
-      .run({ ...input, projectId: project.id, attenuationByWavelength: JSON.stringify(input.attenuationByWavelength) })
+      .run({
+        ...input,
+        projectId: project.id,
+        attenuationByWavelength: JSON.stringify(input.attenuationByWavelength),
+      })
     recordFieldChanges(
       ctx.database.db,
       { userId: actor.id, entity: 'loss_budget', entityId: project.id, at: new Date().toISOString() },
@@ -68,5 +78,9 @@ export function putLossBudget(ctx: AppContext, actor: Actor, projectId: unknown,
     )
     return readBudgetSettings(sqlite, project.id)
   })
-  return viewOf(project.id, saved, project.limits.perWavelength.map((l) => l.wavelength))
+  return viewOf(
+    project.id,
+    saved,
+    project.limits.perWavelength.map((l) => l.wavelength),
+  )
 }

@@ -10,14 +10,20 @@ let cableId: string
 beforeAll(() => {
   t = makeTestApp()
   projectId = t.database.sqlite.prepare('SELECT id FROM projects').pluck().get() as string
-  cableId = t.database.sqlite.prepare("SELECT id FROM cables WHERE label = 'TR-864-A Hub to Weir Road'").pluck().get() as string
+  cableId = t.database.sqlite
+    .prepare("SELECT id FROM cables WHERE label = 'TR-864-A Hub to Weir Road'")
+    .pluck()
+    .get() as string
 })
 afterAll(() => t.close())
 
 const path = () => `/api/projects/${projectId}/loss-budget`
 const stored = () => ({
   row: t.database.sqlite.prepare('SELECT * FROM loss_budget_settings').all(),
-  audit: t.database.sqlite.prepare("SELECT count(*) FROM audit_log WHERE entity = 'loss_budget'").pluck().get(),
+  audit: t.database.sqlite
+    .prepare("SELECT count(*) FROM audit_log WHERE entity = 'loss_budget'")
+    .pluck()
+    .get(),
 })
 const fiberPath = async () =>
   (
@@ -25,7 +31,12 @@ const fiberPath = async () =>
       .get(`/api/projects/${projectId}/fiber-path`)
       .query({ cableId, fiber: 1 })
       .set('Authorization', await t.tokenFor('office'))
-  ).body as { lengthM: number; connectorPairs: number; splices: unknown[]; budgets: { wavelengthNm: number; allowedDb: number }[] }
+  ).body as {
+    lengthM: number
+    connectorPairs: number
+    splices: unknown[]
+    budgets: { wavelengthNm: number; allowedDb: number }[]
+  }
 
 const good = {
   attenuationDbPerKm: null,
@@ -37,7 +48,9 @@ const good = {
 
 describe('loss budget settings', () => {
   it('when a project sets nothing, then every wavelength uses the defaults and names their sources', async () => {
-    const res = await request(t.app).get(path()).set('Authorization', await t.tokenFor('office'))
+    const res = await request(t.app)
+      .get(path())
+      .set('Authorization', await t.tokenFor('office'))
     expect(res.status).toBe(200)
     expect(res.body.settings).toEqual({
       attenuationDbPerKm: null,
@@ -50,14 +63,23 @@ describe('loss budget settings', () => {
     // REFERENCE.md §2: splice 0.3 dB (ANSI/TIA-568.3-D 2016, from memory), mated connector pair 0.75 dB
     // (ANSI/TIA-568.3-D 2016), single-mode outside plant 0.5 dB/km at 1310/1550 nm (ANSI/TIA-568.3-D, from memory).
     expect(at1550.spliceLossDb).toEqual({ value: 0.3, source: expect.stringContaining('from memory') })
-    expect(at1550.connectorPairLossDb).toEqual({ value: 0.75, source: 'ANSI/TIA-568.3-D (2016), mated connector pair' })
-    expect(at1550.attenuationDbPerKm).toEqual({ value: 0.5, source: expect.stringContaining('outside plant') })
+    expect(at1550.connectorPairLossDb).toEqual({
+      value: 0.75,
+      source: 'ANSI/TIA-568.3-D (2016), mated connector pair',
+    })
+    expect(at1550.attenuationDbPerKm).toEqual({
+      value: 0.5,
+      source: expect.stringContaining('outside plant'),
+    })
     expect(at1550.marginDb.value).toBe(0)
   })
 
   it('when the office sets the allowances, then they are stored, audited and the fiber path budget uses them per wavelength', async () => {
     const before = await fiberPath()
-    const res = await request(t.app).put(path()).set('Authorization', await t.tokenFor('office')).send(good)
+    const res = await request(t.app)
+      .put(path())
+      .set('Authorization', await t.tokenFor('office'))
+      .send(good)
     expect(res.status).toBe(200)
     expect(res.body.settings).toEqual(good)
     const at1310 = res.body.effective.find((e: { wavelengthNm: number }) => e.wavelengthNm === 1310)
@@ -86,23 +108,54 @@ describe('loss budget settings', () => {
     expect(after.budgets.find((b) => b.wavelengthNm === 1310)!.allowedDb).toBeCloseTo(expected1310, 9)
     expect(expected1310).toBeCloseTo(1.636 * 0.35 + 0.01 + 0.5 + 3, 9)
     // 1550 nm keeps the default attenuation (0.5 dB/km) with the project's splice, connector and margin.
-    expect(after.budgets.find((b) => b.wavelengthNm === 1550)!.allowedDb).toBeCloseTo(1.636 * 0.5 + 0.01 + 0.5 + 3, 9)
+    expect(after.budgets.find((b) => b.wavelengthNm === 1550)!.allowedDb).toBeCloseTo(
+      1.636 * 0.5 + 0.01 + 0.5 + 3,
+      9,
+    )
 
-    const read = await request(t.app).get(path()).set('Authorization', await t.tokenFor('office'))
+    const read = await request(t.app)
+      .get(path())
+      .set('Authorization', await t.tokenFor('office'))
     expect(read.body.settings).toEqual(good)
   })
 
   it.each([
     ['a negative splice loss', { ...good, spliceLossDb: -0.1 }, 'spliceLossDb'],
-    ['a wavelength listed twice', { ...good, attenuationByWavelength: [{ wavelength: 1310, dbPerKm: 0.3 }, { wavelength: 1310, dbPerKm: 0.4 }] }, 'attenuationByWavelength.1.wavelength'],
-    ['a wavelength that is not one', { ...good, attenuationByWavelength: [{ wavelength: 1200, dbPerKm: 0.3 }] }, 'attenuationByWavelength.0.wavelength'],
+    [
+      'a wavelength listed twice',
+      {
+        ...good,
+        attenuationByWavelength: [
+          { wavelength: 1310, dbPerKm: 0.3 },
+          { wavelength: 1310, dbPerKm: 0.4 },
+        ],
+      },
+      'attenuationByWavelength.1.wavelength',
+    ],
+    [
+      'a wavelength that is not one',
+      { ...good, attenuationByWavelength: [{ wavelength: 1200, dbPerKm: 0.3 }] },
+      'attenuationByWavelength.0.wavelength',
+    ],
     ['attenuation as text', { ...good, attenuationDbPerKm: '0.4' }, 'attenuationDbPerKm'],
-    ['a missing field', { attenuationDbPerKm: null, attenuationByWavelength: [], spliceLossDb: null, connectorPairLossDb: null }, 'marginDb'],
+    [
+      'a missing field',
+      {
+        attenuationDbPerKm: null,
+        attenuationByWavelength: [],
+        spliceLossDb: null,
+        connectorPairLossDb: null,
+      },
+      'marginDb',
+    ],
     ['an unknown field', { ...good, otdrToleranceM: 20 }, ''],
     ['a margin past 50 dB', { ...good, marginDb: 51 }, 'marginDb'],
   ])('when the body has %s, then the answer is 400 and nothing changes', async (_what, body, field) => {
     const before = stored()
-    const res = await request(t.app).put(path()).set('Authorization', await t.tokenFor('office')).send(body)
+    const res = await request(t.app)
+      .put(path())
+      .set('Authorization', await t.tokenFor('office'))
+      .send(body)
     expect(res.status).toBe(400)
     expect(res.body.error.code).toBe('invalid_input')
     expect((res.body.error.details as { path: string }[]).map((d) => d.path)).toContain(field)
@@ -111,9 +164,18 @@ describe('loss budget settings', () => {
 
   it('when a foreman asks, then the settings are refused', async () => {
     const before = stored()
-    const res = await request(t.app).put(path()).set('Authorization', await t.tokenFor('foreman')).send(good)
+    const res = await request(t.app)
+      .put(path())
+      .set('Authorization', await t.tokenFor('foreman'))
+      .send(good)
     expect(res.status).toBe(403)
-    expect((await request(t.app).get(path()).set('Authorization', await t.tokenFor('foreman'))).status).toBe(403)
+    expect(
+      (
+        await request(t.app)
+          .get(path())
+          .set('Authorization', await t.tokenFor('foreman'))
+      ).status,
+    ).toBe(403)
     expect(stored()).toEqual(before)
   })
 })

@@ -1,5 +1,6 @@
 import request from 'supertest'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { fiberPathSchema, reconciliationSchema } from '#shared/schemas/otdr'
 import { measuredForSplices } from '../../server/services/otdrResults'
 import { makeTestApp, tableCounts, type TestApp } from './support/app'
 
@@ -80,6 +81,7 @@ describe('OTDR import', () => {
       .get(`/api/closures/${t.database.sqlite.prepare("SELECT id FROM closures WHERE label LIKE 'VLT-01%'").pluck().get() as string}/reconciliation`)
       .set('Authorization', await t.tokenFor('foreman'))
     expect(view.status).toBe(200)
+    expect(() => reconciliationSchema.parse(view.body)).not.toThrow()
     const row = (view.body.splices as { id: string; measured: { averageDb: number; flags: string[] }[]; untested: number[] }[]).find((s) => s.id === splice)!
     expect(row.measured[0]!.averageDb).toBeCloseTo(0.15, 9)
     expect(row.untested).toEqual([1310])
@@ -92,6 +94,7 @@ describe('OTDR import', () => {
       .query({ cableId, fiber: 1 })
       .set('Authorization', await t.tokenFor('office'))
     expect(path.status).toBe(200)
+    expect(() => fiberPathSchema.parse(path.body)).not.toThrow()
     expect(path.body.lengthM).toBe(1636)
     expect(path.body.aEnd).toEqual({ kind: 'terminal' })
     expect(path.body.bEnd.kind).toBe('dead_end')
