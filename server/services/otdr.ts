@@ -112,7 +112,7 @@ export function importOtdrIntoProject(
   }
   const at = options.at ?? new Date().toISOString()
   let imported = 0
-  const result = writeTransaction(sqlite, () => {
+  const store = () => {
     const touched = new Set<string>()
     const out: OtdrImportResult['files'] = files.map(({ file, sha256, before, traces }) => {
       if (before || traces.length === 0) {
@@ -135,7 +135,10 @@ export function importOtdrIntoProject(
       reconcileSplice(sqlite, plant, spliceId, Number(wavelength), at)
     }
     return { files: out }
-  })
+  }
+  // OTDR rows never sync, so they need no change sequence value: inside a caller's transaction (the demo seed,
+  // which stamps its whole scenario with one value) the import joins it instead of taking a value of its own.
+  const result = sqlite.inTransaction ? store() : writeTransaction(sqlite, store)
   return { status: imported ? 201 : 200, result }
 }
 

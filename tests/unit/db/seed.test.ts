@@ -177,6 +177,8 @@ describe('demo seed', () => {
       all(`SELECT DISTINCT server_seq FROM ${table}`).map((r) => r.server_seq),
     )
     expect(new Set(seqs)).toEqual(new Set([1]))
+    // The OTDR import inside the seed takes no value of its own: a first pull finds the whole scenario at 1.
+    expect(one('SELECT value FROM change_seq WHERE id = 1').value).toBe(1)
   })
 
   it('has OTDR shots of TR-864-A fibers 13–24 through VLT-01, imported by the office, with every case the reconciliation shows', () => {
