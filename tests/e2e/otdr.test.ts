@@ -33,6 +33,8 @@ async function shoot(page: Page, name: string) {
   // The pointer rests off the buttons and nothing keeps focus, so a hover or focus tint is not what gets checked.
   await page.mouse.move(1, 1)
   await page.evaluate(() => (document.activeElement as HTMLElement | null)?.blur())
+  // A field's message fades in; axe reads colours, so it waits for the fade to end.
+  await page.waitForTimeout(600)
   await page.setViewportSize({ width: 360, height: 780 })
   await page.screenshot({ path: join(artifactsDir, `${name}-phone-light.png`), fullPage: true })
   await expectNoSeriousA11y(page, `${name} (phone)`)
@@ -139,6 +141,9 @@ describe('the office reconciles OTDR results (Chromium)', () => {
     // The demo's own shots of ribbon 2 show beside it, with their bend placed between the hub and the vault.
     expect(await page.locator('[data-testid=recon-unmatched-event]').count()).toBeGreaterThanOrEqual(2)
     await shoot(page, 'otdr-reconciliation-vault')
+    // Narrowed to the measured splices: fiber 1 here and the demo's ribbon 2 (fibers 13–24).
+    await page.locator('[data-testid=recon-only-measured]').click()
+    await expect.poll(() => page.locator('[data-testid=recon-splice]').count()).toBe(13)
 
     // The fiber path through the vault: the measured splice, the connector at the hub, the dead end at HH-02.
     await page.goto(`${server.url}/office/projects/${projectId}`)
@@ -165,5 +170,67 @@ describe('the office reconciles OTDR results (Chromium)', () => {
     expect(await budget.locator('[data-testid=path-measured]').textContent()).toContain('0.925 dB')
     expect(await budget.locator('[data-testid=path-measured-verdict]').textContent()).toMatch(/Pass|Fail/)
     await shoot(page, 'otdr-fiber-path')
+
+    // The loss budget: a refused value stays in its box with the reason and nothing is saved; a good one is.
+    await page.goto(`${server.url}/office/projects/${projectId}/loss-budget`)
+    const connector = page.locator('input[data-testid=budget-connector]')
+    await connector.waitFor()
+    await connector.fill('-1')
+    await page.locator('[data-testid=budget-save]').click()
+    await page.locator('[data-testid=loss-budget-form] [data-testid=form-problem]').waitFor()
+    expect(await connector.inputValue()).toBe('-1')
+    type Budget = { settings: { connectorPairLossDb: number | null } }
+    expect(
+      (await apiGet<Budget>(`/api/projects/${projectId}/loss-budget`)).settings.connectorPairLossDb,
+    ).toBeNull()
+    await shoot(page, 'otdr-loss-budget-problem')
+    await connector.fill('0.5')
+    await page.locator('[data-testid=budget-save]').click()
+    await expect
+      .poll(
+        async () =>
+          (await apiGet<Budget>(`/api/projects/${projectId}/loss-budget`)).settings.connectorPairLossDb,
+      )
+      .toBe(0.5)
+  }, 240_000)
+
+  it('when the screens are shown in the dark theme, then axe finds nothing serious at phone width', async () => {
+    const dark = await launchBrowser({ colorScheme: 'dark' })
+    try {
+      const page = await dark.context.newPage()
+      const closures = await apiGet<{ items: { id: string; label: string }[] }>(
+        `/api/projects/${projectId}/closures?limit=500`,
+      )
+      const cables = await apiGet<{ items: { id: string; label: string }[] }>(
+        `/api/projects/${projectId}/cables?limit=500`,
+      )
+      const vault = closures.items.find((c) => c.label === 'VLT-01 Weir Road')!
+      const trunk = cables.items.find((c) => c.label === cable)!
+      await signIn(page, `${server.url}/office/projects/${projectId}/reconciliation?closureId=${vault.id}`)
+      const screens: [string, string, string][] = [
+        ['otdr-import', `/office/projects/${projectId}/otdr`, 'otdr-files'],
+        [
+          'otdr-reconciliation',
+          `/office/projects/${projectId}/reconciliation?closureId=${vault.id}`,
+          'recon-splice',
+        ],
+        [
+          'otdr-fiber-path',
+          `/office/projects/${projectId}/fiber-path?cableId=${trunk.id}&fiber=13`,
+          'path-budget',
+        ],
+        ['otdr-loss-budget', `/office/projects/${projectId}/loss-budget`, 'loss-budget-form'],
+        ['otdr-reports', `/office/projects/${projectId}/reports`, 'report-board'],
+      ]
+      for (const [name, path, ready] of screens) {
+        await page.goto(`${server.url}${path}`)
+        await page.locator(`[data-testid=${ready}]`).first().waitFor({ timeout: 30_000 })
+        await page.mouse.move(1, 1)
+        await page.screenshot({ path: join(artifactsDir, `${name}-phone-dark.png`), fullPage: true })
+        await expectNoSeriousA11y(page, `${name} (phone, dark)`)
+      }
+    } finally {
+      await dark.close()
+    }
   }, 240_000)
 })
