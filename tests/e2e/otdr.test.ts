@@ -43,9 +43,20 @@ async function shoot(page: Page, name: string) {
   await expectNoSeriousA11y(page, `${name} (desktop)`)
 }
 
+/** Picks an option of a q-select; the list may still be loading, in which case the menu opens empty and is tried again. */
 async function choose(page: Page, select: string, option: string) {
-  await page.locator(`[data-testid=${select}]`).click()
-  await page.getByRole('option', { name: option }).click()
+  const item = page.getByRole('option', { name: option })
+  for (let attempt = 0; attempt < 10; attempt += 1) {
+    await page.locator(`[data-testid=${select}]`).click()
+    try {
+      await item.waitFor({ timeout: 2_000 })
+      await item.click()
+      return
+    } catch {
+      await page.keyboard.press('Escape')
+    }
+  }
+  throw new Error(`no option "${option}" in ${select}`)
 }
 
 describe('the office reconciles OTDR results (Chromium)', () => {
@@ -192,6 +203,21 @@ describe('the office reconciles OTDR results (Chromium)', () => {
           (await apiGet<Budget>(`/api/projects/${projectId}/loss-budget`)).settings.connectorPairLossDb,
       )
       .toBe(0.5)
+
+    // Reports: a closure's splices as CSV arrive as a download; the production report goes out on demand.
+    await page.goto(`${server.url}/office/projects/${projectId}`)
+    await page.locator('[data-testid=open-reports]').click()
+    await page.waitForURL(/\/reports$/)
+    await choose(page, 'report-closure', 'VLT-01 Weir Road')
+    const [file] = await Promise.all([
+      page.waitForEvent('download'),
+      page.locator('[data-testid=report-closure-csv]').click(),
+    ])
+    expect(file.suggestedFilename()).toMatch(/^splices-VLT-01.*\.csv$/)
+    await page.locator('input[data-testid=report-day]').fill('2025-06-10')
+    await page.locator('[data-testid=report-send]').click()
+    expect(await page.locator('[data-testid=report-done]').textContent()).toContain('2025-06-10')
+    await shoot(page, 'otdr-reports')
   }, 240_000)
 
   it('when the screens are shown in the dark theme, then axe finds nothing serious at phone width', async () => {
