@@ -6,6 +6,7 @@ import type { ClosureKind, ClosureState, RespliceReason, Role, SpliceMethod } fr
 import { defaultPhotoRules, defaultProjectLimits, type ProjectLimits } from '#shared/schemas/project'
 import { insertSplice, recomputeProjectTotals } from '../server/repositories/splices'
 import { type Conn, dbOf, rawSqlite, writeTransaction } from './client'
+import { seedDemoOtdr } from './seed-otdr'
 import {
   auditLog,
   cables,
@@ -807,6 +808,14 @@ function buildScenario(conn: Conn, serverSeq: number, hashes: Map<DemoUser['key'
 
   // The same roll-up the API maintains, rebuilt from rows so the seed cannot drift from it.
   recomputeProjectTotals(conn, projectId, limits)
+
+  // The office's OTDR acceptance shots of one ribbon through the vault, imported that evening.
+  seedDemoOtdr(conn, {
+    projectId,
+    officeUserId: userIds.office,
+    at: iso(clockAt('17:30')),
+    newId: setUpId,
+  })
 }
 
 function round6(value: number): number {

@@ -90,6 +90,8 @@ export const policy = {
   'GET /api/closures/:closureId/reconciliation': { roles: reviewers, scope: 'closure' },
   'GET /api/cables/:cableId/reconciliation': { roles: reviewers, scope: 'closure' },
   'GET /api/projects/:projectId/fiber-path': { roles: office, scope: 'project' },
+  'GET /api/projects/:projectId/loss-budget': { roles: office, scope: 'project' },
+  'PUT /api/projects/:projectId/loss-budget': { roles: office, scope: 'project' },
 
   // Reports: exports and the close-out PDF follow closure scope (foreman own crew, inspector signed-off work).
   'GET /api/closures/:closureId/export/splices': { roles: reviewers, scope: 'closure' },

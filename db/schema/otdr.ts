@@ -1,3 +1,4 @@
+import { sql } from 'drizzle-orm'
 import { index, integer, primaryKey, real, sqliteTable, text, uniqueIndex } from 'drizzle-orm/sqlite-core'
 import { otdrEventKinds } from '#shared/domain/otdr'
 import { closures } from './closures'
@@ -124,7 +125,13 @@ export const lossBudgetSettings = sqliteTable('loss_budget_settings', {
   projectId: text('project_id')
     .primaryKey()
     .references(() => projects.id),
+  /** Cable attenuation for every wavelength not listed in `attenuationByWavelength`. */
   attenuationDbPerKm: real('attenuation_db_per_km'),
+  /** Cable attenuation of particular wavelengths, e.g. 1310 and 1550 nm apart. */
+  attenuationByWavelength: text('attenuation_by_wavelength', { mode: 'json' })
+    .$type<{ wavelength: number; dbPerKm: number }[]>()
+    .notNull()
+    .default(sql`'[]'`),
   spliceLossDb: real('splice_loss_db'),
   connectorPairLossDb: real('connector_pair_loss_db'),
   marginDb: real('margin_db'),

@@ -4,6 +4,7 @@ import { route } from '../http'
 import * as otdr from '../services/otdr'
 import * as reconciliation from '../services/reconciliation'
 import { fiberPath } from '../services/fiberPaths'
+import { getLossBudget, putLossBudget } from '../services/lossBudget'
 import { otdrCsvTemplate } from '../services/otdrCsv'
 import { getProject } from '../services/projects'
 
@@ -25,6 +26,12 @@ export function otdrRouter(ctx: AppContext): Router {
   })
   route(ctx, router, 'GET /api/projects/:projectId/fiber-path', (req, res) => {
     res.json(fiberPath(ctx, res.locals.actor, req.params.projectId, req.query))
+  })
+  route(ctx, router, 'GET /api/projects/:projectId/loss-budget', (req, res) => {
+    res.json(getLossBudget(ctx, res.locals.actor, req.params.projectId))
+  })
+  route(ctx, router, 'PUT /api/projects/:projectId/loss-budget', (req, res) => {
+    res.json(putLossBudget(ctx, res.locals.actor, req.params.projectId, req.body))
   })
   return router
 }

@@ -26,7 +26,12 @@ export function syncRouter(ctx: AppContext): Router {
     res.json(listRejected(ctx, res.locals.actor, req.query))
   })
   route(ctx, router, 'POST /api/sync/rejected/:rejectedId/reapply', (req, res) => {
-    res.json(reapplyRejected(ctx, res.locals.actor, req.params.rejectedId))
+    // A re-applied sign-off mails the office as a pushed one does, once it has committed.
+    res.json(
+      reapplyRejected(ctx, res.locals.actor, req.params.rejectedId, (mutation, result) =>
+        afterPush(ctx, [mutation], [result]),
+      ),
+    )
   })
   return router
 }

@@ -1,4 +1,4 @@
-import { defaultBudgetAllowances, linkLoss, budgetMargin } from '#shared/domain/budget'
+import { budgetMargin, effectiveAllowances, linkLoss } from '#shared/domain/budget'
 import { traceFiberPath } from '#shared/domain/fiberPath'
 import { spliceMeasurement } from '#shared/domain/otdr'
 import { fiberPathQuerySchema } from '#shared/schemas/otdr'
@@ -6,6 +6,7 @@ import type { AppContext } from '../context'
 import { notFound } from '../errors'
 import type { Actor } from '../middleware/auth'
 import { loadProjectPlant } from '../repositories/otdr'
+import { readBudgetSettings } from './lossBudget'
 import { getProject } from './projects'
 
 /** One fiber traced end to end, each splice's loss (measured where known, else estimated), and its loss budget per wavelength. */
@@ -16,16 +17,7 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
   const plant = loadProjectPlant(sqlite, project.id)
   if (!plant.graph.cables.has(cableId)) throw notFound('The cable')
   const path = traceFiberPath(plant.graph, { cableId, fiber })
-  const own = sqlite.prepare('SELECT * FROM loss_budget_settings WHERE project_id = ?').get(project.id) as
-    | { attenuation_db_per_km: number | null; splice_loss_db: number | null; connector_pair_loss_db: number | null; margin_db: number | null }
-    | undefined
-  const allowances = {
-    attenuationDbPerKm: own?.attenuation_db_per_km ?? defaultBudgetAllowances.attenuationDbPerKm.singleModeOutsidePlant,
-    spliceLossDb: own?.splice_loss_db ?? defaultBudgetAllowances.spliceLossDb,
-    connectorPairLossDb: own?.connector_pair_loss_db ?? defaultBudgetAllowances.connectorPairLossDb,
-    marginDb: own?.margin_db ?? 0,
-    source: own ? 'project' : 'TIA-568.3-D defaults',
-  }
+  const settings = readBudgetSettings(sqlite, project.id)
   const connectors = [path.aEnd, path.bEnd].filter((end) => end.kind === 'terminal').length
   const results = sqlite.prepare('SELECT ab_db AS ab, ba_db AS ba FROM otdr_splice_results WHERE splice_id = ? AND wavelength_nm = ?')
   const wavelengths = project.limits.perWavelength.map((l) => l.wavelength)
@@ -36,6 +28,13 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
       ORDER BY i.imported_at DESC, t.id DESC`,
   )
   const budgets = wavelengths.map((wavelengthNm) => {
+    const own = effectiveAllowances(settings, wavelengthNm)
+    const allowances = {
+      attenuationDbPerKm: own.attenuationDbPerKm.value,
+      spliceLossDb: own.spliceLossDb.value,
+      connectorPairLossDb: own.connectorPairLossDb.value,
+      marginDb: own.marginDb.value,
+    }
     const splices = path.joins.map((step) => {
       const r = results.get(step.joinId, wavelengthNm) as { ab: number | null; ba: number | null } | undefined
       const m = r ? spliceMeasurement(r.ab, r.ba) : null
@@ -63,6 +62,7 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
     const measuredDb = ab !== undefined && ba !== undefined ? (ab + ba) / 2 : (ab ?? ba ?? null)
     return {
       wavelengthNm,
+      allowances: own,
       splices,
       allowedDb: allowed,
       expectedDb,
@@ -81,7 +81,6 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
     connectorPairs: connectors,
     segments: path.segments.map((s) => ({ ...s, cable: plant.cableLabels.get(s.cableId) ?? '' })),
     splices: path.joins.map((j) => ({ ...j, closure: plant.graph.closures.get(j.closureId)?.label ?? '', estimateDb: plant.splices.get(j.joinId)?.lossDb ?? null })),
-    allowances,
     budgets,
   }
 }

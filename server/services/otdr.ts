@@ -68,8 +68,26 @@ function tracesOf(fileName: string, rows: CsvRowRead[], plant: ProjectPlant, pro
 /** Imports OTDR CSV files: all of them or, when any row is bad, none; a file imported before changes nothing. */
 export function importOtdrFiles(ctx: AppContext, actor: Actor, projectId: unknown, body: unknown): { status: number; result: OtdrImportResult } {
   const project = getProject(ctx, actor, projectId)
+  return importOtdrIntoProject(ctx.database.sqlite, actor.id, project, body)
+}
+
+export interface OtdrImportOptions {
+  /** The import's time; now unless given (the demo seed gives its own clock). */
+  at?: string
+  /** Makes row ids; UUIDv7 unless given (the demo seed gives its fixed generator). */
+  newId?: () => string
+}
+
+/** The import itself, for a project already checked: the route above and the demo seed both go through it. */
+export function importOtdrIntoProject(
+  sqlite: Sqlite,
+  actorId: string,
+  project: { id: string; otdrToleranceM: number },
+  body: unknown,
+  options: OtdrImportOptions = {},
+): { status: number; result: OtdrImportResult } {
   const input = otdrImportBodySchema.parse(body)
-  const { sqlite } = ctx.database
+  const newId = options.newId ?? uuidv7
   const plant = loadProjectPlant(sqlite, project.id)
   const problems: OtdrRowProblem[] = []
   const seen = new Map<string, string>()
@@ -92,9 +110,9 @@ export function importOtdrFiles(ctx: AppContext, actor: Actor, projectId: unknow
       problems,
     )
   }
-  const at = new Date().toISOString()
+  const at = options.at ?? new Date().toISOString()
   let imported = 0
-  const result = writeTransaction(sqlite, () => {
+  const store = () => {
     const touched = new Set<string>()
     const out: OtdrImportResult['files'] = files.map(({ file, sha256, before, traces }) => {
       if (before || traces.length === 0) {
@@ -102,14 +120,14 @@ export function importOtdrFiles(ctx: AppContext, actor: Actor, projectId: unknow
         return { name: file.name, sha256, status: 'unchanged' as const, importId: held.id, traces: held.traces, events: held.events, unmatched: 0 }
       }
       imported += 1
-      const importId = uuidv7()
+      const importId = newId()
       const events = traces.reduce((n, t) => n + t.rows.filter((r) => r.value.distance_m !== null).length, 0)
       sqlite
         .prepare('INSERT INTO otdr_imports (id, project_id, file_name, sha256, imported_by, imported_at, trace_count, event_count) VALUES (?, ?, ?, ?, ?, ?, ?, ?)')
-        .run(importId, project.id, file.name, sha256, actor.id, at, traces.length, events)
+        .run(importId, project.id, file.name, sha256, actorId, at, traces.length, events)
       let unmatched = 0
-      for (const trace of traces) unmatched += storeTrace(sqlite, plant, project, importId, trace, touched)
-      recordEvent(ctx.database.db, { userId: actor.id, entity: 'otdr_import', entityId: importId, at }, 'created', { fileName: file.name, sha256 })
+      for (const trace of traces) unmatched += storeTrace(sqlite, plant, project, importId, trace, touched, newId)
+      recordEvent(sqlite, { userId: actorId, entity: 'otdr_import', entityId: importId, at }, 'created', { fileName: file.name, sha256 })
       return { name: file.name, sha256, status: 'imported' as const, importId, traces: traces.length, events, unmatched }
     })
     for (const key of touched) {
@@ -117,7 +135,10 @@ export function importOtdrFiles(ctx: AppContext, actor: Actor, projectId: unknow
       reconcileSplice(sqlite, plant, spliceId, Number(wavelength), at)
     }
     return { files: out }
-  })
+  }
+  // OTDR rows never sync, so they need no change sequence value: inside a caller's transaction (the demo seed,
+  // which stamps its whole scenario with one value) the import joins it instead of taking a value of its own.
+  const result = sqlite.inTransaction ? store() : writeTransaction(sqlite, store)
   return { status: imported ? 201 : 200, result }
 }
 
@@ -128,10 +149,11 @@ function storeTrace(
   importId: string,
   trace: TraceDraft,
   touched: Set<string>,
+  newId: () => string,
 ): number {
   const path = traceFiberPath(plant.graph, { cableId: trace.cableId, fiber: trace.fiber })
   const first = path.segments[0] ?? { cableId: trace.cableId, fiber: trace.fiber }
-  const traceId = uuidv7()
+  const traceId = newId()
   sqlite
     .prepare(
       `INSERT INTO otdr_traces (id, import_id, project_id, cable_id, fiber, direction, wavelength_nm, fiber_length_m, end_to_end_db, path_cable_id, path_fiber)
@@ -157,7 +179,7 @@ function storeTrace(
     const spliceId = match.kind === 'join' ? match.joinId : null
     if (spliceId) touched.add(`${spliceId}|${trace.wavelengthNm}`)
     insert.run(
-      uuidv7(), traceId, r.row, r.value.distance_m, event.atM, r.value.loss_db, r.value.reflectance_db, event.kind, match.kind,
+      newId(), traceId, r.row, r.value.distance_m, event.atM, r.value.loss_db, r.value.reflectance_db, event.kind, match.kind,
       spliceId, match.kind === 'join' || match.kind === 'duplicate' ? match.closureId : null,
       where?.routePositionM ?? null, where?.after?.id ?? null, where?.before?.id ?? null, where?.cableId ?? null,
     )

@@ -314,7 +314,13 @@ export function listRejected(ctx: AppContext, actor: Actor, query: unknown) {
 }
 
 /** Re-applies one quarantined mutation as the foreman or office user, in one transaction; resolved when it applies. */
-export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unknown) {
+export function reapplyRejected(
+  ctx: AppContext,
+  actor: Actor,
+  rejectedId: unknown,
+  /** Called once the change has committed, with the mutation and its result (the route mails a sign-off here). */
+  onCommitted?: (mutation: { seq: number; name: string; args: unknown }, result: { seq: number; status: string }) => void,
+) {
   const id =
     typeof rejectedId === 'string' && /^[1-9][0-9]{0,15}$/.test(rejectedId) ? Number(rejectedId) : NaN
   const row = Number.isSafeInteger(id) ? findRejected(ctx.database.sqlite, id) : undefined
@@ -361,8 +367,9 @@ export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unkno
     }
     return publicResult(result)
   })
+  let result: MutationResult
   try {
-    return { rejectedId: row.id, result: run.immediate() }
+    result = run.immediate()
   } catch (error) {
     if (isTemporaryFailure(error)) {
       throw new AppError(
@@ -377,4 +384,6 @@ export function reapplyRejected(ctx: AppContext, actor: Actor, rejectedId: unkno
     }
     throw error
   }
+  onCommitted?.({ seq: row.seq, name: row.name, args: row.args }, result)
+  return { rejectedId: row.id, result }
 }

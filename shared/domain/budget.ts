@@ -84,3 +84,67 @@ export function budgetMargin(input: BudgetMarginInput): number {
   const budgetDb = 'budgetDb' in input ? input.budgetDb : input.txPowerDbm - input.rxSensitivityDbm
   return budgetDb - input.linkLossDb
 }
+
+/** Where each default allowance comes from (REFERENCE.md §2), worded for the people who set a project up. */
+export const budgetAllowanceSources = {
+  spliceLossDb: 'ANSI/TIA-568.3-D (2016) splice maximum — from memory; ISO/IEC 11801 gives the same',
+  connectorPairLossDb: 'ANSI/TIA-568.3-D (2016), mated connector pair',
+  singleModeAttenuation: 'ANSI/TIA-568.3-D, single-mode outside plant at 1310/1550 nm — from memory',
+  multimode850: 'ANSI/TIA-568.3-D, multimode at 850 nm — from memory',
+  multimode1300: 'ANSI/TIA-568.3-D, multimode at 1300 nm — from memory',
+  marginDb: 'No design margin unless the project sets one',
+  project: 'Set for this project',
+} as const
+
+/** A project's own allowances as stored: null (or a wavelength not listed) means the default. */
+export interface BudgetSettings {
+  attenuationDbPerKm: number | null
+  attenuationByWavelength: readonly { wavelength: number; dbPerKm: number }[]
+  spliceLossDb: number | null
+  connectorPairLossDb: number | null
+  marginDb: number | null
+}
+
+export const noBudgetSettings: BudgetSettings = {
+  attenuationDbPerKm: null,
+  attenuationByWavelength: [],
+  spliceLossDb: null,
+  connectorPairLossDb: null,
+  marginDb: null,
+}
+
+export interface Allowance {
+  value: number
+  source: string
+}
+
+/** The default cable attenuation of a wavelength: multimode figures at 850 and 1300 nm, single-mode outside plant otherwise. */
+export function defaultAttenuation(wavelengthNm: number): Allowance {
+  const a = defaultBudgetAllowances.attenuationDbPerKm
+  if (wavelengthNm === 850) return { value: a.multimode850, source: budgetAllowanceSources.multimode850 }
+  if (wavelengthNm === 1300) return { value: a.multimode1300, source: budgetAllowanceSources.multimode1300 }
+  return { value: a.singleModeOutsidePlant, source: budgetAllowanceSources.singleModeAttenuation }
+}
+
+/** The allowances a loss budget at one wavelength uses: the project's own where set, else the defaults, each with its source. */
+export function effectiveAllowances(settings: BudgetSettings, wavelengthNm: number) {
+  const own = (value: number | null, fallback: Allowance): Allowance =>
+    value === null ? fallback : { value, source: budgetAllowanceSources.project }
+  const listed = settings.attenuationByWavelength.find((w) => w.wavelength === wavelengthNm)
+  return {
+    wavelengthNm,
+    attenuationDbPerKm: listed
+      ? { value: listed.dbPerKm, source: budgetAllowanceSources.project }
+      : own(settings.attenuationDbPerKm, defaultAttenuation(wavelengthNm)),
+    spliceLossDb: own(settings.spliceLossDb, {
+      value: defaultBudgetAllowances.spliceLossDb,
+      source: budgetAllowanceSources.spliceLossDb,
+    }),
+    connectorPairLossDb: own(settings.connectorPairLossDb, {
+      value: defaultBudgetAllowances.connectorPairLossDb,
+      source: budgetAllowanceSources.connectorPairLossDb,
+    }),
+    marginDb: own(settings.marginDb, { value: 0, source: budgetAllowanceSources.marginDb }),
+  }
+}
+export type EffectiveAllowances = ReturnType<typeof effectiveAllowances>

@@ -1,7 +1,7 @@
 import { z } from 'zod'
-import { otdrEventKinds } from '../domain/otdr'
+import { measuredFlags, otdrEventKinds } from '../domain/otdr'
 import { labelSchema, limitDbSchema } from './common'
-import { wavelengthSchema } from './enums'
+import { wavelengthSchema, wavelengths } from './enums'
 
 /** The columns of Lightseam's OTDR event CSV, in order: one row per event, the trace's fields repeated on each. */
 export const otdrCsvColumns = [
@@ -84,16 +84,151 @@ export const otdrImportResultSchema = z.object({
 })
 export type OtdrImportResult = z.infer<typeof otdrImportResultSchema>
 
-/** Loss budget allowances a project sets; a null field falls back to the TIA-568.3-D default. */
+const dbPerKmSchema = z.number().min(0).max(10).multipleOf(0.001)
+
+/** Loss budget allowances a project sets; a null field (or a wavelength not listed) falls back to the TIA-568.3-D default. */
 export const lossBudgetSettingsSchema = z.strictObject({
-  attenuationDbPerKm: z.number().min(0).max(10).nullable(),
+  /** Cable attenuation (dB/km) for every wavelength not listed below. */
+  attenuationDbPerKm: dbPerKmSchema.nullable(),
+  /** Cable attenuation of particular wavelengths. */
+  attenuationByWavelength: z
+    .array(z.strictObject({ wavelength: wavelengthSchema, dbPerKm: dbPerKmSchema }))
+    .max(wavelengths.length)
+    .superRefine((rows, ctx) => {
+      const seen = new Set<number>()
+      rows.forEach((row, i) => {
+        if (seen.has(row.wavelength))
+          ctx.addIssue({ code: 'custom', path: [i, 'wavelength'], message: `${row.wavelength} nm is listed twice.` })
+        seen.add(row.wavelength)
+      })
+    }),
   spliceLossDb: limitDbSchema.nullable(),
   connectorPairLossDb: limitDbSchema.nullable(),
-  marginDb: z.number().min(0).max(50).nullable(),
+  marginDb: z.number().min(0).max(50).multipleOf(0.001).nullable(),
 })
 export type LossBudgetSettings = z.infer<typeof lossBudgetSettingsSchema>
+
+const allowanceSchema = z.object({ value: z.number(), source: z.string() })
+export const effectiveAllowancesSchema = z.object({
+  wavelengthNm: z.number(),
+  attenuationDbPerKm: allowanceSchema,
+  spliceLossDb: allowanceSchema,
+  connectorPairLossDb: allowanceSchema,
+  marginDb: allowanceSchema,
+})
+
+/** The answer of GET/PUT /api/projects/:projectId/loss-budget: what the project set and what each wavelength's budget uses. */
+export const lossBudgetViewSchema = z.object({
+  projectId: z.string(),
+  settings: lossBudgetSettingsSchema,
+  effective: z.array(effectiveAllowancesSchema),
+})
+export type LossBudgetView = z.infer<typeof lossBudgetViewSchema>
 
 export const fiberPathQuerySchema = z.strictObject({
   cableId: z.uuid(),
   fiber: z.coerce.number<string>().int().min(1).max(3456),
 })
+
+/** One measured result of a splice at one wavelength, as the reconciliation shows it. */
+export const measuredResultSchema = z.object({
+  wavelengthNm: z.number(),
+  abDb: z.number().nullable(),
+  baDb: z.number().nullable(),
+  kind: z.enum(['average', 'one_way', 'both_negative', 'no_reading']),
+  averageDb: z.number().nullable(),
+  gainer: z.string().nullable(),
+  flags: z.array(z.enum(measuredFlags)),
+})
+export type MeasuredResult = z.infer<typeof measuredResultSchema>
+
+export const reconciliationSpliceSchema = z.object({
+  id: z.string(),
+  closureId: z.string(),
+  closureLabel: z.string(),
+  trayNumber: z.number(),
+  slot: z.number(),
+  cableA: z.string(),
+  fiberA: z.number(),
+  cableB: z.string(),
+  fiberB: z.number(),
+  estimateDb: z.number().nullable(),
+  measured: z.array(measuredResultSchema),
+  untested: z.array(z.number()),
+})
+export type ReconciliationSplice = z.infer<typeof reconciliationSpliceSchema>
+
+/** An OTDR event near no splice of its path: where it lies along the route and between which closures. */
+export const unmatchedEventSchema = z.object({
+  id: z.string(),
+  fileName: z.string(),
+  row: z.number(),
+  wavelengthNm: z.number(),
+  direction: z.enum(['a_to_b', 'b_to_a']),
+  distanceM: z.number(),
+  fromAM: z.number(),
+  lossDb: z.number().nullable(),
+  kind: z.enum(otdrEventKinds),
+  routePositionM: z.number().nullable(),
+  afterClosure: z.string().nullable(),
+  beforeClosure: z.string().nullable(),
+  cable: z.string().nullable(),
+})
+export type UnmatchedEvent = z.infer<typeof unmatchedEventSchema>
+
+/** The answer of GET /api/closures/:closureId/reconciliation and GET /api/cables/:cableId/reconciliation. */
+export const reconciliationSchema = z.object({
+  closure: z.object({ id: z.string(), label: z.string() }).optional(),
+  cable: z.object({ id: z.string(), label: z.string() }).optional(),
+  wavelengths: z.array(z.number()),
+  splices: z.array(reconciliationSpliceSchema),
+  unmatched: z.array(unmatchedEventSchema),
+  counts: z.object({ splices: z.number(), untested: z.number(), flagged: z.number() }),
+})
+export type Reconciliation = z.infer<typeof reconciliationSchema>
+
+const pathEndSchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('terminal') }),
+  z.object({ kind: z.literal('dead_end'), closureId: z.string() }),
+  z.object({ kind: z.literal('loop'), joinId: z.string() }),
+  z.object({ kind: z.literal('branch'), joinIds: z.array(z.string()) }),
+])
+export type FiberPathEnd = z.infer<typeof pathEndSchema>
+
+/** The answer of GET /api/projects/:projectId/fiber-path. */
+export const fiberPathSchema = z.object({
+  lengthM: z.number(),
+  aEnd: pathEndSchema,
+  bEnd: pathEndSchema,
+  complete: z.boolean(),
+  connectorPairs: z.number(),
+  segments: z.array(
+    z.object({
+      cableId: z.string(),
+      cable: z.string(),
+      fiber: z.number(),
+      fromM: z.number(),
+      toM: z.number(),
+      startsAtM: z.number(),
+      lengthM: z.number(),
+    }),
+  ),
+  splices: z.array(
+    z.object({ joinId: z.string(), closureId: z.string(), closure: z.string(), atM: z.number(), estimateDb: z.number().nullable() }),
+  ),
+  budgets: z.array(
+    z.object({
+      wavelengthNm: z.number(),
+      allowances: effectiveAllowancesSchema,
+      splices: z.array(z.object({ spliceId: z.string(), lossDb: z.number(), source: z.enum(['measured', 'estimated', 'allowance']) })),
+      allowedDb: z.number(),
+      expectedDb: z.number(),
+      marginDb: z.number(),
+      pass: z.boolean(),
+      measuredEndToEndDb: z.number().nullable(),
+      measuredMarginDb: z.number().nullable(),
+      measuredPass: z.boolean().nullable(),
+    }),
+  ),
+})
+export type FiberPathView = z.infer<typeof fiberPathSchema>

@@ -114,6 +114,36 @@ export const routes: RouteRecordRaw[] = [
         meta: { title: 'Project board', roles: officeRoles },
       },
       {
+        path: 'office/projects/:projectId/otdr',
+        name: 'office-otdr-import',
+        component: () => import('@/pages/office/OfficeOtdrImportPage.vue'),
+        meta: { title: 'OTDR import', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/reconciliation',
+        name: 'office-reconciliation',
+        component: () => import('@/pages/office/OfficeReconciliationPage.vue'),
+        meta: { title: 'Reconciliation', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/fiber-path',
+        name: 'office-fiber-path',
+        component: () => import('@/pages/office/OfficeFiberPathPage.vue'),
+        meta: { title: 'Fiber path', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/loss-budget',
+        name: 'office-loss-budget',
+        component: () => import('@/pages/office/OfficeLossBudgetPage.vue'),
+        meta: { title: 'Loss budget', roles: officeRoles },
+      },
+      {
+        path: 'office/projects/:projectId/reports',
+        name: 'office-reports',
+        component: () => import('@/pages/office/OfficeReportsPage.vue'),
+        meta: { title: 'Reports', roles: officeRoles },
+      },
+      {
         path: 'office/audit/:entity/:entityId',
         name: 'office-audit',
         component: () => import('@/pages/office/OfficeAuditPage.vue'),

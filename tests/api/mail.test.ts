@@ -1,4 +1,4 @@
-import { readdirSync, readFileSync } from 'node:fs'
+import { existsSync, readdirSync, readFileSync } from 'node:fs'
 import { join } from 'node:path'
 import { simpleParser, type ParsedMail } from 'mailparser'
 import request from 'supertest'
@@ -6,7 +6,7 @@ import { v7 as uuidv7 } from 'uuid'
 import { afterEach, describe, expect, it } from 'vitest'
 import { startDailyReport } from '../../server/mail/schedule'
 import { inviteUser } from '../../server/services/mail'
-import { demoUser, makeTestApp, tableCounts, type TestApp } from './support/app'
+import { demoUser, makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
 import { pdfText } from './support/pdf'
 import { closureId, mutation, newClientId, pushOk } from './support/sync'
 
@@ -28,6 +28,7 @@ afterEach(async () => {
 async function received(t: TestApp): Promise<ParsedMail[]> {
   await t.ctx.mailer.idle()
   const dir = t.config.mail.dir
+  if (!existsSync(dir)) return []
   const files = readdirSync(dir)
     .filter((f) => f.endsWith('.eml'))
     .sort()
@@ -38,6 +39,12 @@ const toOf = (mail: ParsedMail) =>
 const linkToken = (mail: ParsedMail) => /token=([A-Za-z0-9_-]+)/.exec(mail.text ?? '')![1]!
 const projectId = (t: TestApp) =>
   (t.database.sqlite.prepare('SELECT id FROM projects').get() as { id: string }).id
+const demoUserId = (t: TestApp, who: DemoWho) =>
+  (
+    t.database.sqlite.prepare('SELECT id FROM users WHERE email = ?').get(demoUser(who).email) as {
+      id: string
+    }
+  ).id
 const officeActor = (t: TestApp) => ({
   ...(t.database.sqlite.prepare("SELECT id, email, name FROM users WHERE role = 'office'").get() as {
     id: string
@@ -140,6 +147,78 @@ describe('sign-off message', () => {
     // The same sign-off pushed again from another device mails nothing more.
     await pushOk(t, 'foreman', newClientId(), [mutation(1, 'signOffClosure', { closureId: id })])
     expect(await received(t)).toHaveLength(1)
+  })
+
+  it('when a refused sign-off is re-applied by the office, then the office receives the same one message as for a push', async () => {
+    const t = app()
+    const id = closureId(t, 'PED-03')
+    const { sqlite } = t.database
+    const foreman = demoUserId(t, 'foreman')
+    const client = newClientId()
+    const at = new Date().toISOString()
+    sqlite
+      .prepare('INSERT INTO sync_clients (client_id, user_id, created_at, last_seen_at) VALUES (?, ?, ?, ?)')
+      .run(client, foreman, at, at)
+    // A sign-off the server refused earlier, kept in quarantine for a lead to re-apply.
+    const rejectedId = Number(
+      sqlite
+        .prepare(
+          `INSERT INTO rejected_mutations (client_id, seq, user_id, name, args, code, message, at)
+           VALUES (?, 1, ?, 'signOffClosure', ?, 'conflict', 'Changed meanwhile.', ?)`,
+        )
+        .run(client, foreman, JSON.stringify({ closureId: id, note: 'Tidy work.' }), at).lastInsertRowid,
+    )
+    expect(await received(t)).toHaveLength(0)
+    const res = await request(t.app)
+      .post(`/api/sync/rejected/${rejectedId}/reapply`)
+      .set('Authorization', await t.tokenFor('office'))
+      .send({})
+    expect(res.status).toBe(200)
+    expect(res.body.result.status).toBe('applied')
+    const mails = await received(t)
+    expect(mails).toHaveLength(1)
+    expect(mails[0]!.subject).toBe('Signed off: PED-03 Sloe Hill')
+    expect(toOf(mails[0]!)).toBe(demoUser('office').email)
+    expect(mails[0]!.attachments[0]!.filename).toBe('close-out-PED-03-Sloe-Hill.pdf')
+    // Re-applying again is refused and mails nothing more; nor does the same sign-off pushed afterwards.
+    const again = await request(t.app)
+      .post(`/api/sync/rejected/${rejectedId}/reapply`)
+      .set('Authorization', await t.tokenFor('office'))
+      .send({})
+    expect(again.status).toBe(409)
+    await pushOk(t, 'foreman', newClientId(), [mutation(1, 'signOffClosure', { closureId: id })])
+    expect(await received(t)).toHaveLength(1)
+  })
+
+  it('when a re-applied change is not a sign-off, then no sign-off message goes out', async () => {
+    const t = app()
+    const { sqlite } = t.database
+    const foreman = demoUserId(t, 'foreman')
+    const client = newClientId()
+    const at = new Date().toISOString()
+    sqlite
+      .prepare('INSERT INTO sync_clients (client_id, user_id, created_at, last_seen_at) VALUES (?, ?, ?, ?)')
+      .run(client, foreman, at, at)
+    const args = {
+      id: uuidv7(),
+      entity: 'closure',
+      entityId: closureId(t, 'PED-03'),
+      body: 'Lid gasket replaced.',
+    }
+    const rejectedId = Number(
+      sqlite
+        .prepare(
+          `INSERT INTO rejected_mutations (client_id, seq, user_id, name, args, code, message, at)
+           VALUES (?, 1, ?, 'addNote', ?, 'conflict', 'Changed meanwhile.', ?)`,
+        )
+        .run(client, foreman, JSON.stringify(args), at).lastInsertRowid,
+    )
+    const res = await request(t.app)
+      .post(`/api/sync/rejected/${rejectedId}/reapply`)
+      .set('Authorization', await t.tokenFor('office'))
+      .send({})
+    expect(res.body.result.status).toBe('applied')
+    expect(await received(t)).toHaveLength(0)
   })
 
   it('when the mail server cannot be reached, then the sync still succeeds and the failure is recorded', async () => {

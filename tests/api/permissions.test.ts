@@ -127,6 +127,8 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'GET /api/projects/:projectId/fiber-path': read(
     (i) => `/api/projects/${i.projectId}/fiber-path?cableId=${i.cableId}&fiber=1`,
   ),
+  'GET /api/projects/:projectId/loss-budget': read((i) => `/api/projects/${i.projectId}/loss-budget`),
+  'PUT /api/projects/:projectId/loss-budget': write((i) => `/api/projects/${i.projectId}/loss-budget`),
   'GET /api/closures/:closureId/export/splices': read(
     (i) => `/api/closures/${i.closureId}/export/splices`,
     true,

@@ -5,6 +5,7 @@ import { writeTransaction } from '#db/client'
 import { demoProjectCode, demoUsers, seedDemo } from '#db/seed'
 import { closureKinds, roles } from '#shared/schemas/enums'
 import { loadProjectLimits, recomputeProjectTotals } from '../../../server/repositories/splices'
+import { demoOtdrFiles } from '#db/seed-otdr'
 import { freshDatabase, type TestDatabase } from './support'
 
 type Row = Record<string, unknown>
@@ -177,4 +178,38 @@ describe('demo seed', () => {
     )
     expect(new Set(seqs)).toEqual(new Set([1]))
   })
+
+  it('has OTDR shots of TR-864-A fibers 13–24 through VLT-01, imported by the office, with every case the reconciliation shows', () => {
+    const imports = all('SELECT file_name, trace_count, imported_by FROM otdr_imports ORDER BY file_name')
+    expect(imports.map((i) => i.file_name)).toEqual([demoOtdrFiles.fromHandhole, demoOtdrFiles.fromHub].sort())
+    const office = one("SELECT id FROM users WHERE role = 'office'").id
+    expect(imports.every((i) => i.imported_by === office)).toBe(true)
+    const results = all(
+      `SELECT s.fiber_a AS fiber, r.wavelength_nm AS w, r.kind, r.ab_db AS ab, r.ba_db AS ba, r.average_db AS avg, c.label
+         FROM otdr_splice_results r JOIN splices s ON s.id = r.splice_id JOIN closures c ON c.id = r.closure_id ORDER BY fiber, w`,
+    )
+    expect(new Set(results.map((r) => r.label))).toEqual(new Set(['VLT-01 Weir Road']))
+    expect(new Set(results.map((r) => r.fiber))).toEqual(new Set(Array.from({ length: 12 }, (_, i) => 13 + i)))
+    // 12 fibers × 2 wavelengths, less fiber 24 at 1310 nm (not shot yet).
+    expect(results).toHaveLength(23)
+    const at = (fiber: number, w: number) => results.find((r) => r.fiber === fiber && r.w === w)
+    // A gainer from A: −0.05 and +0.25 average 0.10 (REFERENCE.md §3, computed).
+    expect(at(17, 1310)).toMatchObject({ kind: 'average', ab: -0.05, ba: 0.25 })
+    expect(at(17, 1310)!.avg as number).toBeCloseTo(0.1, 9)
+    expect(at(19, 1550)).toMatchObject({ kind: 'one_way', ba: null, avg: null })
+    expect(at(21, 1310)).toMatchObject({ kind: 'both_negative', avg: null })
+    expect(at(15, 1550)!.avg as number).toBeCloseTo(0.19, 9)
+    expect(at(24, 1310)).toBeUndefined()
+    const bends = all("SELECT route_position_m AS at FROM otdr_events WHERE match = 'unmatched'")
+    expect(bends).toEqual([{ at: 702 }, { at: 702 }])
+    // Imported inside the seed's one transaction: no change sequence value of its own (see tests/api/sync.pull.test.ts).
+    const other = freshDatabase()
+    try {
+      seedDemo(other.db, { bcryptCost: 4 })
+      expect(other.sqlite.prepare('SELECT value FROM change_seq WHERE id = 1').pluck().get()).toBe(1)
+    } finally {
+      other.close()
+    }
+  })
 })
+

@@ -3,6 +3,8 @@ import {
   budgetMargin,
   cabledAttenuationLimitDbPerKm,
   defaultBudgetAllowances,
+  effectiveAllowances,
+  noBudgetSettings,
   ituSingleModeLimits,
   linkLoss,
 } from '#shared/domain/budget'
@@ -100,5 +102,23 @@ describe('loss budget, REFERENCE §5 (ITU-T G.652 Appendix I)', () => {
         connectorLossDb: 0,
       }),
     ).toThrow(RangeError)
+  })
+})
+
+describe('allowances a project budget uses (REFERENCE §2 defaults)', () => {
+  it('when a project sets nothing, then 1310 and 1550 nm use 0.5 dB/km and 850 / 1300 nm the multimode 3.0 / 1.5 dB/km (ANSI/TIA-568.3-D, from memory)', () => {
+    expect(effectiveAllowances(noBudgetSettings, 1310).attenuationDbPerKm.value).toBe(0.5)
+    expect(effectiveAllowances(noBudgetSettings, 1550).attenuationDbPerKm.value).toBe(0.5)
+    expect(effectiveAllowances(noBudgetSettings, 850).attenuationDbPerKm.value).toBe(3.0)
+    expect(effectiveAllowances(noBudgetSettings, 1300).attenuationDbPerKm.value).toBe(1.5)
+    const at1550 = effectiveAllowances(noBudgetSettings, 1550)
+    expect([at1550.spliceLossDb.value, at1550.connectorPairLossDb.value, at1550.marginDb.value]).toEqual([0.3, 0.75, 0])
+  })
+
+  it('when a project lists one wavelength, then that one uses its figure and the rest the project-wide one, else the default', () => {
+    const settings = { ...noBudgetSettings, attenuationDbPerKm: 0.4, attenuationByWavelength: [{ wavelength: 1550, dbPerKm: 0.25 }] }
+    expect(effectiveAllowances(settings, 1550).attenuationDbPerKm).toEqual({ value: 0.25, source: 'Set for this project' })
+    expect(effectiveAllowances(settings, 1310).attenuationDbPerKm).toEqual({ value: 0.4, source: 'Set for this project' })
+    expect(effectiveAllowances({ ...settings, attenuationDbPerKm: null }, 1310).attenuationDbPerKm.value).toBe(0.5)
   })
 })

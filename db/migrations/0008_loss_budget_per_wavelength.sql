@@ -1,0 +1,1 @@
+ALTER TABLE `loss_budget_settings` ADD `attenuation_by_wavelength` text DEFAULT '[]' NOT NULL;
