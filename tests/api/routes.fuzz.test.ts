@@ -6,7 +6,7 @@ import { z } from 'zod'
 import { cableSchema } from '#shared/schemas/cable'
 import { closureSchema } from '#shared/schemas/closure'
 import { errorBodySchema } from '#shared/schemas/common'
-import { otdrImportResultSchema } from '#shared/schemas/otdr'
+import { lossBudgetViewSchema, otdrImportResultSchema } from '#shared/schemas/otdr'
 import { planRowSchema } from '#shared/schemas/planRow'
 import { projectSchema } from '#shared/schemas/project'
 import { pushResponseSchema } from '#shared/schemas/sync'
@@ -118,6 +118,20 @@ const recipes: Record<string, Recipe> = {
     path: (id) => `/api/projects/${id}`,
     sample: () => ({ name: 'Corvell Ford feeder', otdrToleranceM: 25 }),
     shape: projectSchema,
+    ok: [200],
+  }),
+  'PUT /api/projects/:projectId/loss-budget': json({
+    as: 'office',
+    id: (i) => i.projectId,
+    path: (id) => `/api/projects/${id}/loss-budget`,
+    sample: () => ({
+      attenuationDbPerKm: 0.4,
+      attenuationByWavelength: [{ wavelength: 1550, dbPerKm: 0.3 }],
+      spliceLossDb: 0.3,
+      connectorPairLossDb: 0.75,
+      marginDb: 3,
+    }),
+    shape: lossBudgetViewSchema,
     ok: [200],
   }),
   'POST /api/projects/:projectId/cables': json({
