@@ -29,13 +29,17 @@ export function useSpliceLog(closureId: () => string) {
 
   /**
    * Writes the splice (and its outbox entry) to the device. `onPrepared` receives the slot's new current
-   * attempt before the first wait, so the tray can show it while the device database commits.
+   * attempt before the first wait, so the tray can show it while the device database commits; the write
+   * starts once the promise it may return has settled (the tray lets the frame showing it be painted first).
    */
-  async function saveSplice(entry: SpliceEntry, onPrepared?: (splice: SlotSplice) => void): Promise<string> {
+  async function saveSplice(
+    entry: SpliceEntry,
+    onPrepared?: (splice: SlotSplice) => void | Promise<void>,
+  ): Promise<string> {
     const current = db()
     const id = entry.edit ? entry.edit.id : uuidv7()
     const previous = entry.resplice ? toRaw(entry.resplice.previous) : null
-    onPrepared?.({
+    await onPrepared?.({
       id,
       trayId: entry.trayId,
       slot: entry.slot,

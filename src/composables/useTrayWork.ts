@@ -103,6 +103,8 @@ export function useTrayWork(
         shown = splice
         const key = `${splice.trayId}:${splice.slot}`
         writing.value = [...writing.value.filter((w) => `${w.trayId}:${w.slot}` !== key), splice]
+        // The frame answering the tap shows the slot before the device database's work competes with it.
+        return afterPaint()
       })
       if (shown) committed.add(shown)
       if (entry.thenResplice) {
