@@ -29,11 +29,21 @@ function tracesOf(fileName: string, rows: CsvRowRead[], plant: ProjectPlant, pro
     const v = read.value
     const cable = plant.cableByLabel.get(v.cable.trim().toLowerCase())
     if (!cable) {
-      problems.push({ file: fileName, row: read.row, field: 'cable', message: `No cable "${v.cable}" in this project.` })
+      problems.push({
+        file: fileName,
+        row: read.row,
+        field: 'cable',
+        message: `No cable "${v.cable}" in this project.`,
+      })
       continue
     }
     if (v.fiber > cable.fiberCount) {
-      problems.push({ file: fileName, row: read.row, field: 'fiber', message: `${cable.label} has ${cable.fiberCount} fibers.` })
+      problems.push({
+        file: fileName,
+        row: read.row,
+        field: 'fiber',
+        message: `${cable.label} has ${cable.fiberCount} fibers.`,
+      })
       continue
     }
     const direction = v.from_end === 'A' ? 'a_to_b' : 'b_to_a'
@@ -66,7 +76,17 @@ function tracesOf(fileName: string, rows: CsvRowRead[], plant: ProjectPlant, pro
 }
 
 /** Imports OTDR CSV files: all of them or, when any row is bad, none; a file imported before changes nothing. */
-export function importOtdrFiles(ctx: AppContext, actor: Actor, projectId: unknown, body: unknown): { status: number; result: OtdrImportResult } {
+
+/** The file's text as compared between imports: no leading byte-order mark, LF line endings. */
+function sameText(text: string): string {
+  return text.replace(/^\uFEFF/, '').replace(/\r\n?/g, '\n')
+}
+export function importOtdrFiles(
+  ctx: AppContext,
+  actor: Actor,
+  projectId: unknown,
+  body: unknown,
+): { status: number; result: OtdrImportResult } {
   const project = getProject(ctx, actor, projectId)
   return importOtdrIntoProject(ctx.database.sqlite, actor.id, project, body)
 }
@@ -92,11 +112,15 @@ export function importOtdrIntoProject(
   const problems: OtdrRowProblem[] = []
   const seen = new Map<string, string>()
   const files = input.files.map((file) => {
-    const sha256 = createHash('sha256').update(file.text).digest('hex')
+    // The same table saved again elsewhere (a BOM, other line endings) is the same import.
+    const sha256 = createHash('sha256').update(sameText(file.text)).digest('hex')
     const before = sqlite
-      .prepare('SELECT id, trace_count AS traces, event_count AS events FROM otdr_imports WHERE project_id = ? AND sha256 = ?')
+      .prepare(
+        'SELECT id, trace_count AS traces, event_count AS events FROM otdr_imports WHERE project_id = ? AND sha256 = ?',
+      )
       .get(project.id, sha256) as { id: string; traces: number; events: number } | undefined
-    if (before || seen.has(sha256)) return { file, sha256, before: before ?? null, traces: [] as TraceDraft[] }
+    if (before || seen.has(sha256))
+      return { file, sha256, before: before ?? null, traces: [] as TraceDraft[] }
     seen.set(sha256, file.name)
     const read = readOtdrCsv(file.name, file.text)
     problems.push(...read.problems)
@@ -116,19 +140,47 @@ export function importOtdrIntoProject(
     const touched = new Set<string>()
     const out: OtdrImportResult['files'] = files.map(({ file, sha256, before, traces }) => {
       if (before || traces.length === 0) {
-        const held = before ?? (sqlite.prepare('SELECT id, trace_count AS traces, event_count AS events FROM otdr_imports WHERE project_id = ? AND sha256 = ?').get(project.id, sha256) as { id: string; traces: number; events: number })
-        return { name: file.name, sha256, status: 'unchanged' as const, importId: held.id, traces: held.traces, events: held.events, unmatched: 0 }
+        const held =
+          before ??
+          (sqlite
+            .prepare(
+              'SELECT id, trace_count AS traces, event_count AS events FROM otdr_imports WHERE project_id = ? AND sha256 = ?',
+            )
+            .get(project.id, sha256) as { id: string; traces: number; events: number })
+        return {
+          name: file.name,
+          sha256,
+          status: 'unchanged' as const,
+          importId: held.id,
+          traces: held.traces,
+          events: held.events,
+          unmatched: 0,
+        }
       }
       imported += 1
       const importId = newId()
       const events = traces.reduce((n, t) => n + t.rows.filter((r) => r.value.distance_m !== null).length, 0)
       sqlite
-        .prepare('INSERT INTO otdr_imports (id, project_id, file_name, sha256, imported_by, imported_at, trace_count, event_count) VALUES (?, ?, ?, ?, ?, ?, ?, ?)')
+        .prepare(
+          'INSERT INTO otdr_imports (id, project_id, file_name, sha256, imported_by, imported_at, trace_count, event_count) VALUES (?, ?, ?, ?, ?, ?, ?, ?)',
+        )
         .run(importId, project.id, file.name, sha256, actorId, at, traces.length, events)
       let unmatched = 0
-      for (const trace of traces) unmatched += storeTrace(sqlite, plant, project, importId, trace, touched, newId)
-      recordEvent(sqlite, { userId: actorId, entity: 'otdr_import', entityId: importId, at }, 'created', { fileName: file.name, sha256 })
-      return { name: file.name, sha256, status: 'imported' as const, importId, traces: traces.length, events, unmatched }
+      for (const trace of traces)
+        unmatched += storeTrace(sqlite, plant, project, importId, trace, touched, newId)
+      recordEvent(sqlite, { userId: actorId, entity: 'otdr_import', entityId: importId, at }, 'created', {
+        fileName: file.name,
+        sha256,
+      })
+      return {
+        name: file.name,
+        sha256,
+        status: 'imported' as const,
+        importId,
+        traces: traces.length,
+        events,
+        unmatched,
+      }
     })
     for (const key of touched) {
       const [spliceId, wavelength] = key.split('|') as [string, string]
@@ -159,7 +211,19 @@ function storeTrace(
       `INSERT INTO otdr_traces (id, import_id, project_id, cable_id, fiber, direction, wavelength_nm, fiber_length_m, end_to_end_db, path_cable_id, path_fiber)
        VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
     )
-    .run(traceId, importId, project.id, trace.cableId, trace.fiber, trace.direction, trace.wavelengthNm, trace.fiberLengthM, trace.endToEndDb, first.cableId, first.fiber)
+    .run(
+      traceId,
+      importId,
+      project.id,
+      trace.cableId,
+      trace.fiber,
+      trace.direction,
+      trace.wavelengthNm,
+      trace.fiberLengthM,
+      trace.endToEndDb,
+      first.cableId,
+      first.fiber,
+    )
   const rows = trace.rows.filter((r) => r.value.distance_m !== null && r.value.kind !== null)
   const events = rows.map((r) => ({
     atM: distanceFromAM(trace.direction, trace.fiberLengthM, r.value.distance_m as number),
@@ -174,21 +238,40 @@ function storeTrace(
   rows.forEach((r, i) => {
     const match = matches[i]!
     const event = events[i]!
-    const where = match.kind === 'unmatched' ? locateOnPath(plant.graph, path, event.atM, plant.closuresOfCable) : null
+    const where =
+      match.kind === 'unmatched' ? locateOnPath(plant.graph, path, event.atM, plant.closuresOfCable) : null
     if (match.kind === 'unmatched') unmatched += 1
     const spliceId = match.kind === 'join' ? match.joinId : null
     if (spliceId) touched.add(`${spliceId}|${trace.wavelengthNm}`)
     insert.run(
-      newId(), traceId, r.row, r.value.distance_m, event.atM, r.value.loss_db, r.value.reflectance_db, event.kind, match.kind,
-      spliceId, match.kind === 'join' || match.kind === 'duplicate' ? match.closureId : null,
-      where?.routePositionM ?? null, where?.after?.id ?? null, where?.before?.id ?? null, where?.cableId ?? null,
+      newId(),
+      traceId,
+      r.row,
+      r.value.distance_m,
+      event.atM,
+      r.value.loss_db,
+      r.value.reflectance_db,
+      event.kind,
+      match.kind,
+      spliceId,
+      match.kind === 'join' || match.kind === 'duplicate' ? match.closureId : null,
+      where?.routePositionM ?? null,
+      where?.after?.id ?? null,
+      where?.before?.id ?? null,
+      where?.cableId ?? null,
     )
   })
   return unmatched
 }
 
 /** Re-pairs one splice at one wavelength from the newest matched reading in each direction. */
-function reconcileSplice(sqlite: Sqlite, plant: ProjectPlant, spliceId: string, wavelengthNm: number, at: string): void {
+function reconcileSplice(
+  sqlite: Sqlite,
+  plant: ProjectPlant,
+  spliceId: string,
+  wavelengthNm: number,
+  at: string,
+): void {
   const newest = (direction: string) =>
     sqlite
       .prepare(
@@ -209,7 +292,15 @@ function reconcileSplice(sqlite: Sqlite, plant: ProjectPlant, spliceId: string, 
          average_db = excluded.average_db, ab_event_id = excluded.ab_event_id, ba_event_id = excluded.ba_event_id, updated_at = excluded.updated_at`,
     )
     .run(
-      spliceId, wavelengthNm, plant.splices.get(spliceId)!.closureId, ab?.lossDb ?? null, ba?.lossDb ?? null, result.kind,
-      result.kind === 'average' ? result.lossDb : null, ab?.id ?? null, ba?.id ?? null, at,
+      spliceId,
+      wavelengthNm,
+      plant.splices.get(spliceId)!.closureId,
+      ab?.lossDb ?? null,
+      ba?.lossDb ?? null,
+      result.kind,
+      result.kind === 'average' ? result.lossDb : null,
+      ab?.id ?? null,
+      ba?.id ?? null,
+      at,
     )
 }

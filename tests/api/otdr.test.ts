@@ -6,7 +6,8 @@ import { makeTestApp, tableCounts, type TestApp } from './support/app'
 
 let t: TestApp
 let projectId: string
-const header = 'cable,fiber,from_end,wavelength_nm,fiber_length_m,end_to_end_db,distance_m,loss_db,reflectance_db,kind'
+const header =
+  'cable,fiber,from_end,wavelength_nm,fiber_length_m,end_to_end_db,distance_m,loss_db,reflectance_db,kind'
 const cable = 'TR-864-A Hub to Weir Road'
 
 beforeAll(() => {
@@ -33,7 +34,11 @@ describe('OTDR import', () => {
     ])
     expect(res.status).toBe(400)
     expect(res.body.error.code).toBe('invalid_otdr_csv')
-    const rows = (res.body.error.details as { file: string; row: number; field: string }[]).map((p) => [p.file, p.row, p.field])
+    const rows = (res.body.error.details as { file: string; row: number; field: string }[]).map((p) => [
+      p.file,
+      p.row,
+      p.field,
+    ])
     expect(rows).toEqual([
       ['bad.csv', 3, 'from_end'],
       ['bad.csv', 5, 'distance_m'],
@@ -79,20 +84,35 @@ describe('OTDR import', () => {
     expect(bend).toEqual({ at: 800, after: null, before: 'VLT-01 Weir Road' })
 
     const view = await request(t.app)
-      .get(`/api/closures/${t.database.sqlite.prepare("SELECT id FROM closures WHERE label LIKE 'VLT-01%'").pluck().get() as string}/reconciliation`)
+      .get(
+        `/api/closures/${t.database.sqlite.prepare("SELECT id FROM closures WHERE label LIKE 'VLT-01%'").pluck().get() as string}/reconciliation`,
+      )
       .set('Authorization', await t.tokenFor('foreman'))
     expect(view.status).toBe(200)
     expect(() => reconciliationSchema.parse(view.body)).not.toThrow()
-    const row = (view.body.splices as { id: string; measured: { averageDb: number; flags: string[] }[]; untested: number[] }[]).find((s) => s.id === splice)!
+    const row = (
+      view.body.splices as {
+        id: string
+        measured: { averageDb: number; flags: string[] }[]
+        untested: number[]
+      }[]
+    ).find((s) => s.id === splice)!
     expect(row.measured[0]!.averageDb).toBeCloseTo(0.15, 9)
     expect(row.untested).toEqual([1310])
     // The demo's own shots (db/seed-otdr.ts) are on this closure too: only this file's bend is looked at here.
-    expect(view.body.unmatched.filter((e: { fileName: string }) => e.fileName === 'vault-f1.csv')).toHaveLength(1)
-    const untested = (view.body.splices as { untested: number[] }[]).filter((s) => s.untested.length > 0).length
+    expect(
+      view.body.unmatched.filter((e: { fileName: string }) => e.fileName === 'vault-f1.csv'),
+    ).toHaveLength(1)
+    const untested = (view.body.splices as { untested: number[] }[]).filter(
+      (s) => s.untested.length > 0,
+    ).length
     expect(view.body.counts.untested).toBe(untested)
     expect(untested).toBeGreaterThan(0)
 
-    const cableId = t.database.sqlite.prepare('SELECT id FROM cables WHERE label = ?').pluck().get(cable) as string
+    const cableId = t.database.sqlite
+      .prepare('SELECT id FROM cables WHERE label = ?')
+      .pluck()
+      .get(cable) as string
     const path = await request(t.app)
       .get(`/api/projects/${projectId}/fiber-path`)
       .query({ cableId, fiber: 1 })
@@ -122,6 +142,11 @@ describe('OTDR import', () => {
     const again = await send([{ name: 'renamed.csv', text }])
     expect(again.status).toBe(200)
     expect(again.body.files[0]).toMatchObject({ status: 'unchanged', importId: res.body.files[0].importId })
+    expect(tableCounts(t.database)).toEqual(counts)
+    // So does the same file saved again by a spreadsheet on another system (a BOM, CRLF line endings).
+    const resaved = await send([{ name: 'resaved.csv', text: `\uFEFF${text.replace(/\r?\n/g, '\r\n')}` }])
+    expect(resaved.status).toBe(200)
+    expect(resaved.body.files[0]).toMatchObject({ status: 'unchanged', importId: res.body.files[0].importId })
     expect(tableCounts(t.database)).toEqual(counts)
   })
 
