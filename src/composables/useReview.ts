@@ -9,6 +9,7 @@ import type { DeviceDb } from '@/idb/db'
 import type { CableRow, ClosureRow, NoteRow, PhotoLinkRow, SpliceRow } from '@/idb/schema'
 import { reopenClosure, reviewSplice, signOffClosure } from '@/idb/writes'
 import { useSessionStore } from '@/stores/session'
+import { TransportError } from '@/sync/transport'
 import { useLiveQuery } from './useLiveQuery'
 
 /** A crew member as the foreman's screens name them. */
@@ -226,9 +227,10 @@ export interface RejectedChange {
 export function useRejectedChanges(closureId: MaybeRefOrGetter<string>) {
   const items = shallowRef<RejectedChange[]>([])
   const message = ref<string | null>(null)
+  const offlineMessage = 'Offline: changes the server refused show here once there is signal.'
   async function load() {
     if (!navigator.onLine) {
-      message.value = 'Offline: changes the server refused show here once there is signal.'
+      message.value = offlineMessage
       return
     }
     try {
@@ -238,7 +240,9 @@ export function useRejectedChanges(closureId: MaybeRefOrGetter<string>) {
       items.value = page.items.filter((item) => item.closureId === toValue(closureId))
       message.value = null
     } catch (error) {
-      message.value = failureMessage(error)
+      // The browser may still say it is online a moment after the signal went.
+      const unreachable = error instanceof TransportError && error.kind !== 'signIn'
+      message.value = unreachable ? offlineMessage : failureMessage(error)
     }
   }
   async function reapply(id: number): Promise<string | null> {
