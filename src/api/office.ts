@@ -38,6 +38,12 @@ export const createClosure = (projectId: string, body: unknown) =>
 export const updateClosure = (id: string, body: unknown) =>
   api('PATCH', `/api/closures/${id}`, { json: body, schema: closureSchema })
 
+/** A project's cables and closures together, as the screens that pick one of either need them. */
+export async function listProjectPlant(projectId: string) {
+  const [cables, closures] = await Promise.all([listCables(projectId), listClosures(projectId)])
+  return { cables: cables.items, closures: closures.items }
+}
+
 export const listTrays = (closureId: string) =>
   api('GET', `/api/closures/${closureId}/trays`, { query: { limit: 500 }, schema: loose(traySchema) })
 export const createTray = (closureId: string, body: unknown) =>
