@@ -123,7 +123,7 @@ export async function closeOutData(
     if (link.mime !== 'image/jpeg' && link.mime !== 'image/png') continue
     seen.add(link.sha256)
     try {
-      const bytes = await readAll(await ctx.storage.read(link.storage_key))
+      const bytes = await readAll(await ctx.storage.photos.read(link.storage_key))
       photos.push({
         sha256: link.sha256,
         mime: link.mime,
