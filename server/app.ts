@@ -13,7 +13,7 @@ import { splicesRouter } from './routes/splices'
 import { healthRouter } from './routes/health'
 import { photosRouter } from './routes/photos'
 import { syncRouter } from './routes/sync'
-import { createPhotoStorage } from './storage/index'
+import { createStorage } from './storage/index'
 import { createLogger, requestLogging } from './middleware/logging'
 import { otdrRouter } from './routes/otdr'
 import { createMailer } from './mail/mailer'
@@ -23,7 +23,7 @@ import { serveApp } from './static'
 export function createApp(deps: AppDeps): Express {
   const ctx: AppContext = {
     ...deps,
-    storage: deps.storage ?? createPhotoStorage(deps.config),
+    storage: deps.storage ?? createStorage(deps.config),
     logger: deps.logger ?? createLogger(deps.config.logLevel),
     lifecycle: { stopping: false },
     mailer: deps.mailer ?? createMailer(deps.config.mail),

@@ -32,10 +32,11 @@ const envSchema = z.object({
   LIGHTSEAM_TRUST_PROXY: wholeNumber(0, 10).default(0),
   LIGHTSEAM_STATIC_DIR: text().default('dist'),
   LIGHTSEAM_PHOTO_DIR: text().optional(),
+  LIGHTSEAM_REPORT_DIR: text().optional(),
   LIGHTSEAM_PHOTO_MAX_BYTES: wholeNumber(1024, 100 * 1024 * 1024).default(15 * 1024 * 1024),
   LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION: wholeNumber(1, 1_000_000).optional(),
   LIGHTSEAM_LOG_LEVEL: oneOf(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).optional(),
-  // Photo store: the local disk (embedded default) or an S3 bucket.
+  // Photo and report store: the local disk (embedded default) or an S3 bucket.
   LIGHTSEAM_STORAGE: oneOf(['disk', 's3']).default('disk'),
   LIGHTSEAM_S3_BUCKET: z
     .string()
@@ -95,8 +96,8 @@ function withoutEmpty(env: NodeJS.ProcessEnv): Record<string, string> {
   )
 }
 
-/** Where photo bytes are kept. */
-export type PhotoStoreConfig =
+/** Where photo and close-out report bytes are kept. */
+export type StorageConfig =
   | { driver: 'disk' }
   | {
       driver: 's3'
@@ -149,12 +150,14 @@ export interface Config {
   signInLimits: { windowMs: number; perAccount: number; perAddress: number }
   /** Where the local-disk photo store keeps its files (sharded by hash prefix). */
   photoDir: string
+  /** Where the local-disk report store keeps the stored close-out PDFs (sharded the same way). */
+  reportDir: string
   /** The largest photo upload accepted, in bytes. */
   photoMaxBytes: number
   /** Request and error log level (JSON lines on stdout); silent by default in tests. */
   logLevel: 'fatal' | 'error' | 'warn' | 'info' | 'debug' | 'trace' | 'silent'
-  /** Which photo store the app uses (photoDir is the disk driver's folder). */
-  photoStore: PhotoStoreConfig
+  /** Which store the app keeps photos and reports in (photoDir and reportDir are the disk driver's folders). */
+  storage: StorageConfig
   /** Inert in production: the env hook is refused unless NODE_ENV=test; tests may set beforeApply. */
   syncTestHooks: SyncTestHooks
   mail: MailConfig
@@ -177,7 +180,7 @@ function loadSecret(given: string | undefined, dataDir: string): Uint8Array {
   return new TextEncoder().encode(secret)
 }
 
-function photoStoreOf(e: z.infer<typeof envSchema>): PhotoStoreConfig {
+function storageOf(e: z.infer<typeof envSchema>): StorageConfig {
   if (e.LIGHTSEAM_STORAGE === 'disk') return { driver: 'disk' }
   if (!e.LIGHTSEAM_S3_BUCKET)
     throw new ConfigError('Lightseam cannot start: LIGHTSEAM_STORAGE=s3 needs LIGHTSEAM_S3_BUCKET.')
@@ -235,8 +238,9 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env, overrides: Part
     trustProxyHops: e.LIGHTSEAM_TRUST_PROXY,
     signInLimits: { windowMs: 15 * 60_000, perAccount: 5, perAddress: 30 },
     photoDir: resolve(e.LIGHTSEAM_PHOTO_DIR ?? resolve(dataDir, 'photos')),
+    reportDir: resolve(e.LIGHTSEAM_REPORT_DIR ?? resolve(dataDir, 'reports')),
     photoMaxBytes: e.LIGHTSEAM_PHOTO_MAX_BYTES,
-    photoStore: photoStoreOf(e),
+    storage: storageOf(e),
     logLevel: e.LIGHTSEAM_LOG_LEVEL ?? (e.NODE_ENV === 'test' ? 'silent' : 'info'),
     syncTestHooks: { pauseAfterMutation: e.LIGHTSEAM_TEST_PAUSE_AFTER_MUTATION ?? null },
     mail: {

@@ -1,5 +1,6 @@
 import { Cron } from 'croner'
 import type { AppContext } from '../context'
+import { archiveMissingCloseOuts } from '../services/closeOutArchive'
 import { retryFailedMail, sendProductionReports } from '../services/mail'
 
 export interface DailyReport {
@@ -22,7 +23,8 @@ export function dayIn(timezone: string, at: Date): string {
 
 /**
  * Sends the production report every day at the configured time of day (config.mail.dailyReportAt, in
- * config.mail.timezone) for that day, and retries sign-off messages that failed. `now` is the clock.
+ * config.mail.timezone) for that day, stores the close-out reports of sign-offs that have none yet, and
+ * retries sign-off messages that failed. `now` is the clock.
  */
 export function startDailyReport(
   ctx: AppContext,
@@ -43,6 +45,7 @@ export function startDailyReport(
       running = (async () => {
         const day = dayIn(ctx.config.mail.timezone, now())
         await sendProductionReports(ctx, day)
+        await archiveMissingCloseOuts(ctx)
         await retryFailedMail(ctx)
       })().catch((error) => console.error('daily production report:', error))
       return running.then(() => undefined)

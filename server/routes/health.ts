@@ -27,10 +27,15 @@ export function healthRouter(ctx: AppContext): Router {
     ).n
     if (applied < journal.entries.length)
       problems.push(`${journal.entries.length - applied} database migrations are not applied`)
-    try {
-      await ctx.storage.ready()
-    } catch (error) {
-      problems.push(`the photo store is not usable: ${(error as Error).name}`)
+    for (const [name, store] of [
+      ['photo', ctx.storage.photos],
+      ['report', ctx.storage.reports],
+    ] as const) {
+      try {
+        await store.ready()
+      } catch (error) {
+        problems.push(`the ${name} store is not usable: ${(error as Error).name}`)
+      }
     }
     if (problems.length > 0)
       throw new AppError('not_ready', `Not ready: ${problems.join('; ')}.`, 503, { problems })

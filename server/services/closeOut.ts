@@ -18,6 +18,22 @@ const fontFile =
 
 const photoLimit = 12
 
+/** The office acting as the system, for reports the server builds on its own (stored copies, mail). */
+export function systemActor(ctx: AppContext): Actor {
+  const office = ctx.database.sqlite
+    .prepare(
+      "SELECT id, email, name FROM users WHERE role = 'office' AND active = 1 ORDER BY created_at LIMIT 1",
+    )
+    .get() as { id: string; email: string; name: string } | undefined
+  return {
+    id: office?.id ?? 'system',
+    email: office?.email ?? '',
+    name: 'Lightseam',
+    role: 'office',
+    crewId: null,
+  }
+}
+
 /** Everything the close-out report shows about one closure. */
 export interface CloseOutData {
   closure: {
@@ -49,13 +65,14 @@ async function readAll(stream: NodeJS.ReadableStream): Promise<Buffer> {
 
 /**
  * Gathers the report's data; `measured` defaults to the OTDR results stored for the closure's splices
- * and can be given (reports built from a reconciliation in hand).
+ * and can be given (reports built from a reconciliation in hand). `photos: false` skips reading the photo
+ * bytes (for a summary that draws no page).
  */
 export async function closeOutData(
   ctx: AppContext,
   actor: Actor,
   closureId: unknown,
-  options: { measured?: Map<string, MeasuredLoss[]> } = {},
+  options: { measured?: Map<string, MeasuredLoss[]>; photos?: boolean } = {},
 ): Promise<CloseOutData> {
   const closure = getClosure(ctx, actor, closureId)
   const sqlite = ctx.database.sqlite
@@ -118,12 +135,12 @@ export async function closeOutData(
   const splices = listSheetSplices(sqlite, { closureId: closure.id })
   const photos: CloseOutData['photos'] = []
   const seen = new Set<string>()
-  for (const link of links) {
+  for (const link of options.photos === false ? [] : links) {
     if (photos.length >= photoLimit || seen.has(link.sha256) || !link.storage_key) continue
     if (link.mime !== 'image/jpeg' && link.mime !== 'image/png') continue
     seen.add(link.sha256)
     try {
-      const bytes = await readAll(await ctx.storage.read(link.storage_key))
+      const bytes = await readAll(await ctx.storage.photos.read(link.storage_key))
       photos.push({
         sha256: link.sha256,
         mime: link.mime,
@@ -338,11 +355,14 @@ export function renderCloseOut(data: CloseOutData, generatedAt = new Date()): Pr
   return done
 }
 
-/** The closure's close-out report as a PDF file. */
+/** The file name the close-out PDF of a closure goes by, in downloads and mail. */
+export const closeOutFilename = (label: string) => `close-out-${label.replace(/[^A-Za-z0-9._-]+/g, '-')}.pdf`
+
+/** The closure's close-out report as a PDF file, rendered now from the rows as they are. */
 export async function closeOutFile(ctx: AppContext, actor: Actor, closureId: unknown) {
   const data = await closeOutData(ctx, actor, closureId)
   return {
-    filename: `close-out-${data.closure.label.replace(/[^A-Za-z0-9._-]+/g, '-')}.pdf`,
+    filename: closeOutFilename(data.closure.label),
     contentType: 'application/pdf',
     body: await renderCloseOut(data),
   }

@@ -13,27 +13,12 @@ import { AppError } from '../errors'
 import type { OutgoingMail } from '../mail/mailer'
 import type { Actor } from '../middleware/auth'
 import { recordEvent } from '../repositories/audit'
-import { closeOutData, renderCloseOut } from './closeOut'
+import { closeOutData, closeOutFilename, systemActor } from './closeOut'
+import { archiveCloseOut, storedCloseOutBytes } from './closeOutArchive'
 import { createUser } from './people'
 import { production } from './reports'
 
 const sendAttempts = 2
-
-/** The office acting as the system, for reports the server builds on its own. */
-const systemActor = (ctx: AppContext): Actor => {
-  const office = ctx.database.sqlite
-    .prepare(
-      "SELECT id, email, name FROM users WHERE role = 'office' AND active = 1 ORDER BY created_at LIMIT 1",
-    )
-    .get() as { id: string; email: string; name: string } | undefined
-  return {
-    id: office?.id ?? 'system',
-    email: office?.email ?? '',
-    name: 'Lightseam',
-    role: 'office',
-    crewId: null,
-  }
-}
 
 const recipientsOf = (ctx: AppContext, roles: string[]) =>
   (
@@ -79,10 +64,23 @@ export async function sendLogged(
       error = e
     }
   }
-  const at = new Date().toISOString()
   const state = error ? 'failed' : 'sent'
   if (error) console.error(`mail ${kind} ${key}: not sent after ${attempts} attempts`, error)
-  sqlite
+  logMail(ctx, kind, key, mail, attempts, error)
+  return state
+}
+
+/** Records the outcome of one event's message: sent when `error` is null, otherwise failed (to retry). */
+function logMail(
+  ctx: AppContext,
+  kind: string,
+  key: string,
+  mail: Pick<OutgoingMail, 'to' | 'subject'>,
+  attempts: number,
+  error: unknown,
+): void {
+  const at = new Date().toISOString()
+  ctx.database.sqlite
     .prepare(
       `INSERT INTO mail_log (kind, key, recipients, subject, state, attempts, error, created_at, sent_at)
        VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)
@@ -94,13 +92,12 @@ export async function sendLogged(
       key,
       mail.to.join(', '),
       mail.subject,
-      state,
+      error ? 'failed' : 'sent',
       attempts,
       error ? String(error).slice(0, 500) : null,
       at,
       error ? null : at,
     )
-  return state
 }
 
 /** The production report of one UTC day for one project, as plain text. */
@@ -208,36 +205,55 @@ export async function sendProductionReportNow(
   return { sent: state === 'sent', recipients: recipientsOf(ctx, ['office', 'foreman']).length }
 }
 
-/** Mails the office that a closure was signed off, with the close-out PDF; once per sign-off. */
-export function notifySignedOff(ctx: AppContext, closureId: string): Promise<unknown> {
+/**
+ * Stores the close-out PDF of the closure's current sign-off (once, see closeOutArchive.ts) and mails the
+ * office that stored copy; once per sign-off. When the copy cannot be stored the message is logged as
+ * failed without being sent, and `retryFailedMail` stores and sends it later. Never throws.
+ */
+export async function notifySignedOff(ctx: AppContext, closureId: string): Promise<unknown> {
   const row = ctx.database.sqlite
     .prepare("SELECT label, signed_off_at AS at FROM closures WHERE id = ? AND state = 'signed_off'")
     .get(closureId) as { label: string; at: string } | undefined
-  if (!row) return Promise.resolve('skipped')
-  return sendLogged(ctx, 'signed_off', `${closureId}:${row.at}`, async () => {
-    const data = await closeOutData(ctx, systemActor(ctx), closureId)
-    const pdf = await renderCloseOut(data)
+  if (!row) return 'skipped'
+  const kind = 'signed_off'
+  const key = `${closureId}:${row.at}`
+  const to = recipientsOf(ctx, ['office'])
+  const subject = `Signed off: ${row.label}`
+  let pdf: Buffer
+  try {
+    const stored = await archiveCloseOut(ctx, closureId)
+    if (!stored) return 'skipped'
+    pdf = await storedCloseOutBytes(ctx, stored)
+  } catch (error) {
+    console.error(`mail ${kind} ${key}: the close-out report could not be stored`, error)
+    const prior = ctx.database.sqlite
+      .prepare('SELECT state, attempts FROM mail_log WHERE kind = ? AND key = ?')
+      .get(kind, key) as { state: string; attempts: number } | undefined
+    if (prior?.state === 'sent' || to.length === 0) return 'skipped'
+    // The message carries the stored copy: without one it waits, logged failed, for the retry.
+    logMail(ctx, kind, key, { to, subject }, prior?.attempts ?? 0, error)
+    return 'failed'
+  }
+  return sendLogged(ctx, kind, key, async () => {
+    const data = await closeOutData(ctx, systemActor(ctx), closureId, { photos: false })
     const r = data.rollup
     return {
-      to: recipientsOf(ctx, ['office']),
-      subject: `Signed off: ${row.label}`,
+      to,
+      subject,
       text: [
         `${row.label} (${data.project.code}) was signed off by ${data.closure.signedOffBy ?? 'a lead'} at ${row.at}.`,
         `${r.logged} of ${r.planned} planned splices logged, ${r.overTarget} over target, ${r.resplices} re-splices.`,
         'The close-out report is attached.',
       ].join('\n'),
-      attachments: [
-        {
-          filename: `close-out-${row.label.replace(/[^A-Za-z0-9._-]+/g, '-')}.pdf`,
-          content: pdf,
-          contentType: 'application/pdf',
-        },
-      ],
+      attachments: [{ filename: closeOutFilename(row.label), content: pdf, contentType: 'application/pdf' }],
     }
   })
 }
 
-/** After a push committed: mails each closure the batch signed off. Runs in the background; never fails the sync. */
+/**
+ * After a push committed: stores the close-out report of each closure the batch signed off and mails it.
+ * Runs in the background; never fails the sync.
+ */
 export function afterPush(
   ctx: AppContext,
   mutations: { seq: number; name: string; args: unknown }[],
@@ -252,7 +268,7 @@ export function afterPush(
   }
 }
 
-/** Retries sign-off messages that failed before (run with the daily schedule). */
+/** Retries sign-off messages that failed before, storing their close-out report first (daily schedule). */
 export async function retryFailedMail(ctx: AppContext) {
   const failed = ctx.database.sqlite
     .prepare("SELECT key FROM mail_log WHERE kind = 'signed_off' AND state = 'failed'")

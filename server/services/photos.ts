@@ -139,7 +139,7 @@ export async function storePhoto(
   const declared = upload.mediaType.split(';')[0]!.trim().toLowerCase()
   if (!(photoMediaTypes as readonly string[]).includes(declared)) throw notAnImage(declared)
 
-  const temp = join(ctx.storage.tempDir, `${randomUUID()}.part`)
+  const temp = join(ctx.storage.photos.tempDir, `${randomUUID()}.part`)
   let file: FileHandle | null = null
   let kept = false
   const hash = createHash('sha256')
@@ -174,9 +174,9 @@ export async function storePhoto(
     }
     const dimensions = imageDimensions(declared as PhotoMediaType, head)
     const known = findPhoto(ctx.database.db, sha256)
-    if (known && (await ctx.storage.has(known.storageKey)))
+    if (known && (await ctx.storage.photos.has(known.storageKey)))
       return { created: false, photo: publicPhoto(known) }
-    const storageKey = await ctx.storage.put(sha256, temp)
+    const storageKey = await ctx.storage.photos.put(sha256, temp)
     kept = true
     const row: PhotoRow = {
       sha256,
@@ -235,7 +235,7 @@ export async function photoHead(ctx: AppContext, actor: Actor, sha256: unknown):
   assertPhotoHash(sha256)
   const photo = findPhoto(ctx.database.db, sha256)
   if (!photo || (photo.uploadedBy !== actor.id && !mayRead(ctx, actor, sha256))) throw notFound('The photo')
-  if (!(await ctx.storage.has(photo.storageKey))) throw notFound('The photo')
+  if (!(await ctx.storage.photos.has(photo.storageKey))) throw notFound('The photo')
   return photo
 }
 
@@ -249,7 +249,7 @@ export async function readPhoto(
   const photo = findPhoto(ctx.database.db, sha256)
   if (!photo || !mayRead(ctx, actor, sha256)) throw notFound('The photo')
   try {
-    return { photo, bytes: await ctx.storage.read(photo.storageKey) }
+    return { photo, bytes: await ctx.storage.photos.read(photo.storageKey) }
   } catch {
     throw notFound('The photo')
   }

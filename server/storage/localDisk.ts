@@ -3,23 +3,23 @@ import { constants } from 'node:fs'
 import { access, mkdir, open, rename, rm } from 'node:fs/promises'
 import { join, resolve, sep } from 'node:path'
 import type { Readable } from 'node:stream'
-import type { PhotoStorage } from './index'
+import type { BlobStore } from './index'
 
 const hashPattern = /^[0-9a-f]{64}$/
 
-/** Photos under `root/ab/cd/<sha256>`: two levels of 256 folders keep any one folder small. */
-export function createLocalDiskStorage(root: string): PhotoStorage {
+/** Files under `root/ab/cd/<sha256>`: two levels of 256 folders keep any one folder small. */
+export function createLocalDiskStorage(root: string): BlobStore {
   const base = resolve(root)
   const tempDir = join(base, '.tmp')
   mkdirSync(tempDir, { recursive: true })
   // Only this process writes here, and it has just started: anything left is an upload a crash cut off.
   for (const name of readdirSync(tempDir)) rmSync(join(tempDir, name), { force: true })
 
-  // Keys come from the photos table, but a key that strays outside the store is refused all the same.
+  // Keys come from the tables, but a key that strays outside the store is refused all the same.
   const pathOf = (key: string): string => {
     const path = resolve(base, key)
     if (!path.startsWith(base + sep) || path.startsWith(tempDir + sep))
-      throw new Error(`bad photo key ${key}`)
+      throw new Error(`bad storage key ${key}`)
     return path
   }
 

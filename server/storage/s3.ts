@@ -11,7 +11,7 @@ import {
   S3Client,
   S3ServiceException,
 } from '@aws-sdk/client-s3'
-import type { PhotoStorage } from './index'
+import type { BlobStore } from './index'
 
 const hashPattern = /^[0-9a-f]{64}$/
 
@@ -25,7 +25,9 @@ export interface S3StorageOptions {
   secretAccessKey?: string
   /** Prepended to every key, e.g. `lightseam/` when the bucket is shared. */
   prefix: string
-  /** Local folder for uploads in flight (they are verified before they go to the store). */
+  /** The folder after the prefix that keeps this store's objects apart: `photos` or `reports`. */
+  namespace: 'photos' | 'reports'
+  /** Local folder for files in flight (photos are verified there before they go to the store). */
   tempDir: string
 }
 
@@ -34,27 +36,32 @@ function missing(error: unknown): boolean {
   return error.name === 'NotFound' || error.name === 'NoSuchKey' || error.$metadata.httpStatusCode === 404
 }
 
+/** A client for the configured endpoint and keys; the photo and report stores of one app share it. */
+export function createS3Client(
+  options: Pick<S3StorageOptions, 'region' | 'endpoint' | 'accessKeyId' | 'secretAccessKey'>,
+): S3Client {
+  return new S3Client({
+    region: options.region,
+    endpoint: options.endpoint,
+    forcePathStyle: options.endpoint !== undefined,
+    credentials:
+      options.accessKeyId && options.secretAccessKey
+        ? { accessKeyId: options.accessKeyId, secretAccessKey: options.secretAccessKey }
+        : undefined,
+    // Checksums only where S3 requires them: compatible stores do not all speak the newer trailers.
+    requestChecksumCalculation: 'WHEN_REQUIRED',
+    responseChecksumValidation: 'WHEN_REQUIRED',
+  })
+}
+
 /**
- * Photos as objects `<prefix>photos/ab/cd/<sha256>` in an S3 bucket. Uploads are checked in a local temp
+ * Bytes as objects `<prefix><namespace>/ab/cd/<sha256>` in an S3 bucket. Uploads are checked in a local temp
  * file first (size, type, hash), exactly as with the disk driver, and only then sent, so the store never
  * holds bytes that failed a check; a PUT of one key is atomic in S3, so concurrent uploads of one hash are
  * harmless (they carry the same bytes).
  */
-export function createS3Storage(options: S3StorageOptions, client?: S3Client): PhotoStorage {
-  const s3 =
-    client ??
-    new S3Client({
-      region: options.region,
-      endpoint: options.endpoint,
-      forcePathStyle: options.endpoint !== undefined,
-      credentials:
-        options.accessKeyId && options.secretAccessKey
-          ? { accessKeyId: options.accessKeyId, secretAccessKey: options.secretAccessKey }
-          : undefined,
-      // Checksums only where S3 requires them: compatible stores do not all speak the newer trailers.
-      requestChecksumCalculation: 'WHEN_REQUIRED',
-      responseChecksumValidation: 'WHEN_REQUIRED',
-    })
+export function createS3Storage(options: S3StorageOptions, client?: S3Client): BlobStore {
+  const s3 = client ?? createS3Client(options)
   const tempDir = resolve(options.tempDir)
   mkdirSync(tempDir, { recursive: true })
   // Only this process writes here, and it has just started: anything left is an upload a crash cut off.
@@ -62,11 +69,11 @@ export function createS3Storage(options: S3StorageOptions, client?: S3Client): P
 
   const Bucket = options.bucket
   const keyOf = (sha256: string) =>
-    `${options.prefix}photos/${sha256.slice(0, 2)}/${sha256.slice(2, 4)}/${sha256}`
-  // Keys come from the photos table; one that is not this store's shape is refused all the same.
+    `${options.prefix}${options.namespace}/${sha256.slice(0, 2)}/${sha256.slice(2, 4)}/${sha256}`
+  // Keys come from the tables; one that is not this store's shape is refused all the same.
   const checked = (key: string): string => {
     const sha256 = key.slice(key.lastIndexOf('/') + 1)
-    if (!hashPattern.test(sha256) || key !== keyOf(sha256)) throw new Error(`bad photo key ${key}`)
+    if (!hashPattern.test(sha256) || key !== keyOf(sha256)) throw new Error(`bad storage key ${key}`)
     return key
   }
 

@@ -32,7 +32,9 @@ export const closureSplicesExport = (closureId: string, format: 'csv' | 'xlsx') 
 export const projectSplicesExport = (projectId: string, format: 'csv' | 'xlsx', day?: string) =>
   download(`/api/projects/${projectId}/export/splices`, { format, day })
 export const boardExport = (projectId: string) => download(`/api/projects/${projectId}/export/board`)
-export const closeOutPdf = (closureId: string) => download(`/api/closures/${closureId}/close-out`)
+/** The close-out PDF: for a signed-off closure the copy stored at sign-off, unless `fresh` asks for one rendered now. */
+export const closeOutPdf = (closureId: string, fresh = false) =>
+  download(`/api/closures/${closureId}/close-out`, fresh ? { fresh: '1' } : undefined)
 export const sendProductionReport = (projectId: string, day: string) =>
   api('POST', `/api/projects/${projectId}/production-report`, {
     json: { day },

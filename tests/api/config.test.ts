@@ -96,7 +96,7 @@ describe('configuration at start', () => {
   it('when a variable is set but empty, then it counts as unset and takes its default', () => {
     const config = loadConfig({ ...base, PORT: '', LIGHTSEAM_STORAGE: '', LIGHTSEAM_LOG_LEVEL: ' ' })
     expect(config.port).toBe(3000)
-    expect(config.photoStore).toEqual({ driver: 'disk' })
+    expect(config.storage).toEqual({ driver: 'disk' })
     expect(config.logLevel).toBe('silent')
   })
 
@@ -110,7 +110,7 @@ describe('configuration at start', () => {
       LIGHTSEAM_SMTP_URL: 'smtp://crew:pw@127.0.0.1:2525',
     })
     expect(config.port).toBe(8080)
-    expect(config.photoStore).toMatchObject({ driver: 's3', bucket: 'corvell-ford-photos' })
+    expect(config.storage).toMatchObject({ driver: 's3', bucket: 'corvell-ford-photos' })
     expect(config.logLevel).toBe('warn')
     expect(config.mail.smtpUrl).toBe('smtp://crew:pw@127.0.0.1:2525')
   })

@@ -48,7 +48,7 @@ describe('health and readiness', () => {
       })
     })
     const s3 = makeTestApp({
-      photoStore: {
+      storage: {
         driver: 's3',
         bucket: 'nowhere',
         region: 'us-east-1',

@@ -1,12 +1,11 @@
-import { existsSync, readdirSync, readFileSync } from 'node:fs'
-import { join } from 'node:path'
-import { simpleParser, type ParsedMail } from 'mailparser'
+import type { ParsedMail } from 'mailparser'
 import request from 'supertest'
 import { v7 as uuidv7 } from 'uuid'
 import { afterEach, describe, expect, it } from 'vitest'
 import { startDailyReport } from '../../server/mail/schedule'
 import { inviteUser } from '../../server/services/mail'
 import { demoUser, makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
+import { received } from './support/mail'
 import { pdfText } from './support/pdf'
 import { closureId, mutation, newClientId, pushOk } from './support/sync'
 
@@ -24,16 +23,6 @@ afterEach(async () => {
   apps = []
 })
 
-/** Every message the fake SMTP server stored, parsed, oldest first. */
-async function received(t: TestApp): Promise<ParsedMail[]> {
-  await t.ctx.mailer.idle()
-  const dir = t.config.mail.dir
-  if (!existsSync(dir)) return []
-  const files = readdirSync(dir)
-    .filter((f) => f.endsWith('.eml'))
-    .sort()
-  return Promise.all(files.map((f) => simpleParser(readFileSync(join(dir, f)))))
-}
 const toOf = (mail: ParsedMail) =>
   (Array.isArray(mail.to) ? mail.to : [mail.to!]).map((a) => a.text).join(', ')
 const linkToken = (mail: ParsedMail) => /token=([A-Za-z0-9_-]+)/.exec(mail.text ?? '')![1]!

@@ -1,4 +1,4 @@
-import { mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs'
+import { existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
 import type { Readable } from 'node:stream'
@@ -6,13 +6,19 @@ import S3rver from 's3rver'
 import request from 'supertest'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { ConfigError, loadConfig } from '../../server/config'
-import { createLocalDiskStorage, createS3Storage, type PhotoStorage } from '../../server/storage/index'
+import {
+  createLocalDiskStorage,
+  createS3Storage,
+  createStorage,
+  type BlobStore,
+} from '../../server/storage/index'
 import { makeTestApp, type TestApp } from './support/app'
 import { jpegBytes, sha256, upload } from './support/photos'
 import { closureId, mutation, newClientId, pushOk } from './support/sync'
 
-// Both photo stores behind one interface: the local disk (embedded default) and S3, here a fake S3 server on
+// Both stores behind one interface: the local disk (embedded default) and S3, here a fake S3 server on
 // 127.0.0.1 started by the test. The same contract runs against each, then the photo routes run over S3.
+// Stored close-out reports use the same drivers in their own namespace (tests/api/closeOutArchive.test.ts).
 
 const bucket = 'lightseam-photos'
 let fakeS3: S3rver
@@ -57,12 +63,12 @@ async function bytesOf(stream: Readable): Promise<Buffer> {
   return Buffer.concat(parts)
 }
 
-const drivers: Array<[string, () => PhotoStorage]> = [
+const drivers: Array<[string, () => BlobStore]> = [
   ['local disk', () => createLocalDiskStorage(folder())],
-  ['S3', () => createS3Storage({ ...s3Options(), tempDir: folder() })],
+  ['S3', () => createS3Storage({ ...s3Options(), namespace: 'photos', tempDir: folder() })],
 ]
 
-describe.each(drivers)('the %s photo store', (_name, make) => {
+describe.each(drivers)('the %s store', (_name, make) => {
   it('when verified bytes are put, then they are there under the returned key, read back whole, and removable', async () => {
     const store = make()
     const bytes = jpegBytes(64, 48, 200_000)
@@ -84,7 +90,7 @@ describe.each(drivers)('the %s photo store', (_name, make) => {
 
   it('when a key is not of the store, then it is refused before any storage call', async () => {
     const store = make()
-    await expect(store.has('../../etc/passwd')).rejects.toThrow(/bad photo key/)
+    await expect(store.has('../../etc/passwd')).rejects.toThrow(/bad storage key/)
     await expect(store.read('photos/zz/zz/not-a-hash')).rejects.toThrow()
     await expect(store.put('not-a-hash', join(store.tempDir, 'x'))).rejects.toThrow(/sha256/)
   })
@@ -105,10 +111,50 @@ describe.each(drivers)('the %s photo store', (_name, make) => {
   })
 })
 
+describe('photos and reports in one configured store', () => {
+  const secret = { jwtSecret: new TextEncoder().encode('x'.repeat(40)) }
+  const put = async (store: BlobStore, bytes: Buffer) => {
+    const temp = join(store.tempDir, 'file.part')
+    writeFileSync(temp, bytes)
+    return store.put(sha256(bytes), temp)
+  }
+
+  it('when the same bytes go to both on the local disk, then they are two files in two folders, photo paths as before', async () => {
+    const dataDir = folder()
+    const config = loadConfig({ NODE_ENV: 'test', LIGHTSEAM_DATA_DIR: dataDir }, secret)
+    const storage = createStorage(config)
+    const bytes = Buffer.from('%PDF-1.3 the same bytes in both namespaces')
+    const hash = sha256(bytes)
+    const shard = `${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`
+    expect(await put(storage.photos, bytes)).toBe(shard)
+    expect(await put(storage.reports, bytes)).toBe(shard)
+    expect(existsSync(join(dataDir, 'photos', shard))).toBe(true)
+    expect(existsSync(join(dataDir, 'reports', shard))).toBe(true)
+    await storage.reports.remove(shard)
+    expect(await storage.photos.has(shard)).toBe(true)
+  })
+
+  it('when the same bytes go to both over S3, then they are two objects under photos/ and reports/ and each store refuses the other’s keys', async () => {
+    const config = loadConfig({ NODE_ENV: 'test', LIGHTSEAM_DATA_DIR: folder() }, secret)
+    const storage = createStorage({ ...config, storage: { driver: 's3', ...s3Options('both/') } })
+    const bytes = Buffer.from('%PDF-1.3 the same bytes in both buckets folders')
+    const hash = sha256(bytes)
+    const shard = `${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`
+    expect(await put(storage.photos, bytes)).toBe(`both/photos/${shard}`)
+    expect(await put(storage.reports, bytes)).toBe(`both/reports/${shard}`)
+    expect((await bytesOf(await storage.reports.read(`both/reports/${shard}`))).equals(bytes)).toBe(true)
+    await expect(storage.photos.has(`both/reports/${shard}`)).rejects.toThrow(/bad storage key/)
+    await expect(storage.reports.read(`both/photos/${shard}`)).rejects.toThrow(/bad storage key/)
+    await storage.reports.remove(`both/reports/${shard}`)
+    expect(await storage.photos.has(`both/photos/${shard}`)).toBe(true)
+    expect(await storage.reports.has(`both/reports/${shard}`)).toBe(false)
+  })
+})
+
 describe('the photo routes over S3', () => {
   let t: TestApp
   beforeAll(() => {
-    t = makeTestApp({ photoStore: { driver: 's3', ...s3Options('app/') } })
+    t = makeTestApp({ storage: { driver: 's3', ...s3Options('app/') } })
   })
   afterAll(() => t.close())
 
@@ -139,11 +185,11 @@ describe('the photo routes over S3', () => {
     expect(got.status).toBe(200)
     expect((got.body as Buffer).equals(bytes)).toBe(true)
     // The object is in the bucket under the configured prefix, straight from a second client.
-    const direct = createS3Storage({ ...s3Options('app/'), tempDir: folder() })
+    const direct = createS3Storage({ ...s3Options('app/'), namespace: 'photos', tempDir: folder() })
     expect(await direct.has(`app/photos/${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`)).toBe(true)
     // Again: idempotent, nothing new stored.
     expect([200, 201]).toContain((await upload(t, 'splicer', bytes)).status)
-    expect(readdirSync(t.ctx.storage.tempDir)).toEqual([])
+    expect(readdirSync(t.ctx.storage.photos.tempDir)).toEqual([])
   })
 
   it('when a photo fails a check, then nothing reaches the bucket', async () => {
@@ -151,7 +197,7 @@ describe('the photo routes over S3', () => {
     const wrongHash = sha256(Buffer.from('other bytes'))
     const refused = await upload(t, 'splicer', bytes, 'image/jpeg', wrongHash)
     expect(refused.status).toBe(422)
-    const direct = createS3Storage({ ...s3Options('app/'), tempDir: folder() })
+    const direct = createS3Storage({ ...s3Options('app/'), namespace: 'photos', tempDir: folder() })
     const key = (hash: string) => `app/photos/${hash.slice(0, 2)}/${hash.slice(2, 4)}/${hash}`
     expect(await direct.has(key(wrongHash))).toBe(false)
     expect(await direct.has(key(sha256(bytes)))).toBe(false)
@@ -162,8 +208,13 @@ describe('photo store configuration', () => {
   const base = { NODE_ENV: 'test' as const, LIGHTSEAM_DATA_DIR: folder() }
   const secret = { jwtSecret: new TextEncoder().encode('x'.repeat(40)) }
 
-  it('when nothing is set, then photos go to the local disk', () => {
-    expect(loadConfig(base, secret).photoStore).toEqual({ driver: 'disk' })
+  it('when nothing is set, then photos and reports go to the local disk, each in its folder of the data folder', () => {
+    const config = loadConfig(base, secret)
+    expect(config.storage).toEqual({ driver: 'disk' })
+    expect(config.photoDir).toBe(join(base.LIGHTSEAM_DATA_DIR, 'photos'))
+    expect(config.reportDir).toBe(join(base.LIGHTSEAM_DATA_DIR, 'reports'))
+    const elsewhere = folder()
+    expect(loadConfig({ ...base, LIGHTSEAM_REPORT_DIR: elsewhere }, secret).reportDir).toBe(elsewhere)
   })
 
   it('when S3 is chosen without a bucket or with half a key pair, then the server refuses to start, naming it', () => {
@@ -195,7 +246,7 @@ describe('photo store configuration', () => {
       },
       secret,
     )
-    expect(config.photoStore).toMatchObject({
+    expect(config.storage).toMatchObject({
       driver: 's3',
       bucket,
       endpoint: s3Endpoint,

@@ -85,14 +85,14 @@ function walk(dir: string): string[] {
 
 /** Files in the photo store, outside its temp folder, relative to the store. */
 export function storedFiles(t: TestApp): string[] {
-  const tempDir = t.ctx.storage.tempDir
+  const tempDir = t.ctx.storage.photos.tempDir
   return walk(t.config.photoDir)
     .filter((file) => !file.startsWith(tempDir))
     .map((file) => relative(t.config.photoDir, file))
 }
 
 /** Files left in the store's temp folder. */
-export const tempFiles = (t: TestApp) => readdirSync(t.ctx.storage.tempDir)
+export const tempFiles = (t: TestApp) => readdirSync(t.ctx.storage.photos.tempDir)
 
 export const photoRows = (t: TestApp) =>
   (t.database.sqlite.prepare('SELECT count(*) AS n FROM photos').get() as { n: number }).n
