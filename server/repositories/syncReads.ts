@@ -3,6 +3,8 @@ import { type Conn, rawSqlite, type Sqlite } from '#db/client'
 import type { NeighbourSplice } from '#shared/domain/acceptance'
 import type { SlottedPair } from '#shared/domain/plan'
 import type { ClosureState, Role } from '#shared/schemas/enums'
+import { writeHeldAuditRows } from './audit'
+import { writeHeldAnswers } from './syncLog'
 
 // The reads a pushed mutation makes before it writes, as prepared statements: they run for every mutation
 // of every batch, inside the batch's transaction.
@@ -196,6 +198,9 @@ export function spliceNeighbours(
 
 /** The latest accepted change of each field of a splice, by field name. */
 export function spliceFieldStamps(conn: Conn, spliceId: string): Map<string, FieldStamp> {
+  // Rows a push batch still holds are part of the trail.
+  writeHeldAuditRows(conn)
+  writeHeldAnswers(conn)
   const stamps = new Map<string, FieldStamp>()
   for (const { field, ...stamp } of statements(rawSqlite(conn)).stamps.all(spliceId)) {
     if (!stamps.has(field)) stamps.set(field, stamp)

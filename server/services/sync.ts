@@ -11,19 +11,22 @@ import type { SyncTestHooks } from '../config'
 import type { AppContext } from '../context'
 import { AppError, notFound } from '../errors'
 import type { Actor } from '../middleware/auth'
-import { recordEvent } from '../repositories/audit'
+import { dropHeldAuditRows, holdAuditRows, recordEvent, writeHeldAuditRows } from '../repositories/audit'
 import { SpliceWriteError } from '../repositories/splices'
 import {
   advanceSyncClient,
   bindSyncClient,
+  dropHeldAnswers,
   findRejected,
   findSyncClient,
+  holdAnswers,
   listRejectedRows,
   quarantineMutation,
   type RejectedRow,
   resolveRejected,
   storedResult,
   storeResult,
+  writeHeldAnswers,
 } from '../repositories/syncLog'
 import { closureFacts } from '../repositories/syncReads'
 import { canSeeClosure } from './access'
@@ -218,6 +221,11 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       )
     }
     let lastSeq = client.lastSeq
+    // Unguarded, the batch stands or falls whole, so its audit rows and answers can wait and go out together.
+    if (!guarded) {
+      holdAuditRows(sqlite)
+      holdAnswers(sqlite)
+    }
     const memo = newBatchMemo()
     const results: MutationResult[] = []
     for (const [index, mutation] of input.mutations.entries()) {
@@ -245,15 +253,26 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       pauseForKill(hooks, index + 1, input.mutations.length)
     }
     memo.totals.flush(sqlite)
+    writeHeldAuditRows(sqlite)
+    writeHeldAnswers(sqlite)
     advanceSyncClient(sqlite, input.clientId, lastSeq, at)
     return { results, lastSeq }
   })
+  const runOnce = (guarded: boolean): PushResponse => {
+    try {
+      return run.immediate(guarded)
+    } finally {
+      // Written before the commit, or rolled back with the batch: nothing held outlives it.
+      dropHeldAuditRows(sqlite)
+      dropHeldAnswers(sqlite)
+    }
+  }
   try {
     try {
-      return run.immediate(false)
+      return runOnce(false)
     } catch (error) {
       if (!(error instanceof RunGuarded)) throw error
-      return run.immediate(true)
+      return runOnce(true)
     }
   } catch (error) {
     if (isTemporaryFailure(error)) {
