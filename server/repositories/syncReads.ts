@@ -65,6 +65,7 @@ interface Statements {
   planRow: BetterSqlite3.Statement<[string, string, number], SlottedPair>
   closurePlan: BetterSqlite3.Statement<[string], SlottedPair>
   neighbours: BetterSqlite3.Statement<[Record<string, unknown>], NeighbourSplice>
+  closureCurrent: BetterSqlite3.Statement<[string], NeighbourSplice>
   stamps: BetterSqlite3.Statement<[string], FieldStamp & { field: string }>
 }
 
@@ -117,6 +118,11 @@ function statements(sqlite: Sqlite): Statements {
            WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0 AND cable_b_id = @cableBId AND fiber_b = @fiberB)
          AND is_current = 1 AND deleted = 0 AND id <> @id
        ORDER BY rowid`,
+    ),
+    closureCurrent: sqlite.prepare(
+      `SELECT id, closure_id AS closureId, tray_id AS trayId, slot, cable_a_id AS cableAId, fiber_a AS fiberA,
+         cable_b_id AS cableBId, fiber_b AS fiberB
+       FROM splices WHERE closure_id = ? AND is_current = 1 AND deleted = 0 ORDER BY rowid`,
     ),
     // audit_log has no server_seq column, but every row a push writes names its (client_id, mutation_seq),
     // and applied_mutations keeps the server_seq that mutation was applied at: together they date the change.
@@ -194,6 +200,11 @@ export function spliceNeighbours(
     cableBId,
     fiberB,
   })
+}
+
+/** Every current live splice of the closure, in the fields spliceNeighbours gives. */
+export function closureCurrentSplices(conn: Conn, closureId: string): NeighbourSplice[] {
+  return statements(rawSqlite(conn)).closureCurrent.all(closureId)
 }
 
 /** The latest accepted change of each field of a splice, by field name. */

@@ -140,9 +140,10 @@ function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
     memo.totals.keepStaged()
     return result
   } catch (error) {
-    // The savepoint is gone, and with it any closure change the mutation made after the memo read it.
+    // The savepoint is gone, and with it any closure or splice change the mutation made after the memo read it.
     memo.totals.dropStaged()
     memo.closures.clear()
+    memo.splices.clear()
     const refusal = refusalOf(error)
     if (!refusal) throw error
     return { seq: mutation.seq, status: 'rejected', ...refusal }
@@ -242,8 +243,12 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
           results.push({ seq: rest.seq, status: 'gap', expectedSeq })
         break
       }
-      // Anything but a new splice may read or rebuild totals rows: the waiting deltas are written first.
-      if (!deferrableTotals.has(mutation.name)) memo.totals.flush(sqlite)
+      // Anything but a new splice may read or rebuild totals rows, or move and remove splices: the waiting
+      // deltas are written first, and the batch's memory of current splices is dropped.
+      if (!deferrableTotals.has(mutation.name)) {
+        memo.totals.flush(sqlite)
+        memo.splices.clear()
+      }
       const work: Attempt = { actor, clientId: input.clientId, mutation, at, memo }
       const result = guarded ? attempt(ctx, work, index) : attemptUnguarded(ctx, work, index)
       if (result.status === 'rejected') quarantine(sqlite, work, result)
