@@ -74,11 +74,20 @@ export function dbOf(conn: Conn): Db {
 
 const seqStatements = new WeakMap<Sqlite, BetterSqlite3.Statement<[], { value: number }>>()
 
+// A push batch run without savepoints counts its change sequence values here and writes the last one once
+// (holdServerSeq), instead of one UPDATE … RETURNING for every mutation.
+const heldSeqs = new WeakMap<Sqlite, { value: number }>()
+
 /** Increments the change sequence and returns the new value; call once per write transaction, inside it. */
 export function nextServerSeq(conn: Conn): number {
   const sqlite = rawSqlite(conn)
   // Outside a transaction the value would not be tied to the commit of the rows stamped with it.
   if (!sqlite.inTransaction) throw new Error('nextServerSeq must run inside a write transaction')
+  const held = heldSeqs.get(sqlite)
+  if (held) {
+    held.value += 1
+    return held.value
+  }
   let stmt = seqStatements.get(sqlite)
   if (!stmt) {
     stmt = sqlite.prepare<[], { value: number }>(
@@ -93,9 +102,37 @@ export function nextServerSeq(conn: Conn): number {
 
 /** The change sequence value of the last committed write (what a pull cursor reaches when up to date). */
 export function currentServerSeq(conn: Conn): number {
-  const row = rawSqlite(conn).prepare('SELECT value FROM change_seq WHERE id = 1').get() as
-    { value: number } | undefined
+  const sqlite = rawSqlite(conn)
+  const held = heldSeqs.get(sqlite)
+  if (held) return held.value
+  const row = sqlite.prepare('SELECT value FROM change_seq WHERE id = 1').get() as { value: number } | undefined
   return row?.value ?? 0
+}
+
+/**
+ * From now until writeHeldServerSeq, the open transaction's change sequence values are counted in memory:
+ * each still one higher than the last, and nothing else can take one meanwhile (the transaction holds the
+ * write lock). Only for a run that writes them back before it commits and drops them when it rolls back (a
+ * push batch without savepoints: a savepoint rolled back would not give its value back).
+ */
+export function holdServerSeq(conn: Conn): void {
+  const sqlite = rawSqlite(conn)
+  if (!sqlite.inTransaction) throw new Error('holdServerSeq must run inside a write transaction')
+  if (!heldSeqs.has(sqlite)) heldSeqs.set(sqlite, { value: currentServerSeq(sqlite) })
+}
+
+/** Stores the last value counted since holdServerSeq and stops holding; call before the transaction commits. */
+export function writeHeldServerSeq(conn: Conn): void {
+  const sqlite = rawSqlite(conn)
+  const held = heldSeqs.get(sqlite)
+  if (!held) return
+  heldSeqs.delete(sqlite)
+  sqlite.prepare('UPDATE change_seq SET value = ? WHERE id = 1').run(held.value)
+}
+
+/** Stops holding change sequence values, dropping the count (its transaction is rolled back). */
+export function dropHeldServerSeq(conn: Conn): void {
+  heldSeqs.delete(rawSqlite(conn))
 }
 
 /**

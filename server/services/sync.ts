@@ -1,5 +1,13 @@
 import { ZodError, z } from 'zod'
-import { currentServerSeq, nextServerSeq, writeTransaction, type Sqlite } from '#db/client'
+import {
+  currentServerSeq,
+  dropHeldServerSeq,
+  holdServerSeq,
+  nextServerSeq,
+  type Sqlite,
+  writeHeldServerSeq,
+  writeTransaction,
+} from '#db/client'
 import {
   type Mutation,
   type MutationName,
@@ -222,10 +230,12 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       )
     }
     let lastSeq = client.lastSeq
-    // Unguarded, the batch stands or falls whole, so its audit rows and answers can wait and go out together.
+    // Unguarded, the batch stands or falls whole, so its audit rows, answers and change sequence can wait
+    // and go out together.
     if (!guarded) {
       holdAuditRows(sqlite)
       holdAnswers(sqlite)
+      holdServerSeq(sqlite)
     }
     const memo = newBatchMemo()
     const results: MutationResult[] = []
@@ -260,6 +270,7 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
     memo.totals.flush(sqlite)
     writeHeldAuditRows(sqlite)
     writeHeldAnswers(sqlite)
+    writeHeldServerSeq(sqlite)
     advanceSyncClient(sqlite, input.clientId, lastSeq, at)
     return { results, lastSeq }
   })
@@ -270,6 +281,7 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       // Written before the commit, or rolled back with the batch: nothing held outlives it.
       dropHeldAuditRows(sqlite)
       dropHeldAnswers(sqlite)
+      dropHeldServerSeq(sqlite)
     }
   }
   try {
