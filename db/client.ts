@@ -105,7 +105,8 @@ export function currentServerSeq(conn: Conn): number {
   const sqlite = rawSqlite(conn)
   const held = heldSeqs.get(sqlite)
   if (held) return held.value
-  const row = sqlite.prepare('SELECT value FROM change_seq WHERE id = 1').get() as { value: number } | undefined
+  const row = sqlite.prepare('SELECT value FROM change_seq WHERE id = 1').get() as
+    { value: number } | undefined
   return row?.value ?? 0
 }
 

@@ -140,7 +140,10 @@ describe('access tokens', () => {
 
   it('when a token that was accepted runs out, then the next request with it is 401 expired', async () => {
     // Verified tokens are remembered; their times must still be judged on every request.
-    const token = await signAccessToken(t.config, { userId: office().id, tokenVersion: office().tokenVersion })
+    const token = await signAccessToken(t.config, {
+      userId: office().id,
+      tokenVersion: office().tokenVersion,
+    })
     expect((await me(token)).status).toBe(200)
     vi.useFakeTimers({ toFake: ['Date'] })
     try {

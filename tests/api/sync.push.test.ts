@@ -160,7 +160,12 @@ describe('push: every mutation applies', () => {
           flags: string
           is_current: number
         }
-      const { closure_id: _c, project_id: _p, last_activity_at: _l, ...totals } = app.database.sqlite
+      const {
+        closure_id: _c,
+        project_id: _p,
+        last_activity_at: _l,
+        ...totals
+      } = app.database.sqlite
         .prepare('SELECT * FROM closure_totals WHERE closure_id = ?')
         .get(s1.closureId) as Record<string, unknown>
       return { splices: all.map((args) => row(args.id)), totals }
