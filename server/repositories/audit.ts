@@ -1,6 +1,5 @@
 import { and, count, desc, eq } from 'drizzle-orm'
-import type BetterSqlite3 from 'better-sqlite3'
-import { type Conn, rawSqlite, type Sqlite } from '#db/client'
+import { type Conn, HeldRows } from '#db/client'
 import { auditLog, users } from '#db/schema/index'
 import { dbOf } from './records'
 
@@ -15,49 +14,67 @@ export interface Change {
 
 type AuditOutcome = (typeof auditLog.$inferInsert)['outcome']
 
-interface Row {
-  at: string
-  userId: string | null
-  clientId: string | null
-  entity: string
-  entityId: string
-  field: string | null
-  oldValue: string | null
-  newValue: string | null
-  outcome: AuditOutcome
-  mutationSeq: number | null
+// Written with statements prepared once per connection: a push writes audit rows for every mutation, and
+// building a Drizzle insert each time cost about 7× the insert itself (tests/bench/push.bench.ts). A push
+// batch holds its rows and writes them together at its end (holdAuditRows).
+const held = new HeldRows('audit_log', [
+  'at',
+  'user_id',
+  'client_id',
+  'entity',
+  'entity_id',
+  'field',
+  'old_value',
+  'new_value',
+  'outcome',
+  'mutation_seq',
+])
+
+function insert(
+  conn: Conn,
+  change: Change,
+  field: string | null,
+  oldValue: string | null,
+  newValue: string | null,
+  outcome: AuditOutcome,
+): void {
+  const values = [
+    change.at,
+    change.userId,
+    change.clientId ?? null,
+    change.entity,
+    change.entityId,
+    field,
+    oldValue,
+    newValue,
+    outcome,
+    change.mutationSeq ?? null,
+  ]
+  held.add(conn, values)
 }
 
-// One prepared statement per connection: a push writes audit rows for every mutation, and building a
-// Drizzle insert each time cost about 7× the insert itself (tests/bench/push.bench.ts).
-const statements = new WeakMap<Sqlite, BetterSqlite3.Statement<[Row]>>()
+/**
+ * From now until the transaction ends, the connection's audit rows are held and written together by
+ * writeHeldAuditRows, in the order they were recorded (the ids follow it). Only for a run that answers for
+ * all its writes at once (a push batch without savepoints): a savepoint rolled back would not take held rows
+ * with it. Reading the trail through this module or syncReads writes the held rows first.
+ */
+export function holdAuditRows(conn: Conn): void {
+  held.hold(conn)
+}
 
-function insert(conn: Conn, row: Row): void {
-  const sqlite = rawSqlite(conn)
-  let statement = statements.get(sqlite)
-  if (!statement) {
-    statement = sqlite.prepare(
-      `INSERT INTO audit_log (at, user_id, client_id, entity, entity_id, field, old_value, new_value, outcome, mutation_seq)
-       VALUES (@at, @userId, @clientId, @entity, @entityId, @field, @oldValue, @newValue, @outcome, @mutationSeq)`,
-    )
-    statements.set(sqlite, statement)
-  }
-  statement.run(row)
+/** Writes the held audit rows; call before the transaction commits. */
+export function writeHeldAuditRows(conn: Conn): void {
+  held.write(conn)
+}
+
+/** Stops holding audit rows, dropping any still held (their transaction is rolled back or done). */
+export function dropHeldAuditRows(conn: Conn): void {
+  held.drop(conn)
 }
 
 // Stored as JSON text, as the column's json mode reads it; null stays SQL NULL.
 const json = (value: unknown) => (value === null || value === undefined ? null : JSON.stringify(value))
-
-function base(change: Change) {
-  return {
-    at: change.at,
-    userId: change.userId,
-    clientId: change.clientId ?? null,
-    entity: change.entity,
-    entityId: change.entityId,
-    mutationSeq: change.mutationSeq ?? null,
-  }
-}
 
 /** Appends one audit row per field whose value differs between `before` and `after`. */
 export function recordFieldChanges(
@@ -70,19 +87,13 @@ export function recordFieldChanges(
   for (const field of Object.keys(after)) {
     if (field === 'serverSeq') continue
     if (JSON.stringify(before[field] ?? null) === JSON.stringify(after[field] ?? null)) continue
-    insert(conn, {
-      ...base(change),
-      field,
-      oldValue: json(before[field]),
-      newValue: json(after[field]),
-      outcome,
-    })
+    insert(conn, change, field, json(before[field]), json(after[field]), outcome)
   }
 }
 
 /** Appends one audit row for a whole-record event (created, deleted, rejected …). */
 export function recordEvent(conn: Conn, change: Change, outcome: AuditOutcome, value?: unknown): void {
-  insert(conn, { ...base(change), field: null, oldValue: null, newValue: json(value), outcome })
+  insert(conn, change, null, null, json(value), outcome)
 }
 
 /** The audit trail of one record, newest first, with the author's name. */
@@ -92,6 +103,7 @@ export function listAudit(
   entityId: string,
   page: { limit: number; offset: number },
 ) {
+  writeHeldAuditRows(conn)
   const db = dbOf(conn)
   const where = and(eq(auditLog.entity, entity), eq(auditLog.entityId, entityId))
   const items = db

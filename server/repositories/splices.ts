@@ -278,6 +278,49 @@ function lossPart(splice: JudgedSplice, limits: ProjectLimits) {
   }
 }
 
+/** What insertSplice judges the added splice and the attempt it replaces with. */
+interface Judging {
+  st: Statements
+  closureId: string
+  counts: PlanPairCounts | undefined
+  known: KnownBeforeInsert | undefined
+  added: JudgedSplice
+  /** The attempt being replaced, which no longer counts as another current splice. */
+  exceptId: string | null
+}
+
+// Module functions rather than closures in insertSplice: it runs for every pushed splice.
+
+/** Live plan rows of the closure joining the pair. */
+function planRowsWith(j: Judging, pair: FiberPair): number {
+  let n = j.counts?.get(j.closureId, pair)
+  if (n === undefined) {
+    n = j.st.planRowsWithPair.get({ closureId: j.closureId, ...pairOf(pair) })?.n ?? 0
+    j.counts?.set(j.closureId, pair, n)
+  }
+  return n
+}
+
+/** Plan rows logged only through `splice`: none while another current splice joins its pair too. */
+function loggedOnlyBy(j: Judging, splice: JudgedSplice): number {
+  const rows = planRowsWith(j, splice)
+  if (rows === 0) return 0
+  // Every current splice joining the added pair shares a fiber end with it, so it is among the neighbours.
+  if (j.known && splice === j.added)
+    return j.known.neighbours.some((n) => n.id !== j.exceptId && samePair(n, splice)) ? 0 : rows
+  const params = { closureId: j.closureId, ...pairOf(splice), exceptId: j.exceptId }
+  return j.st.otherCurrentWithPair.get(params)?.has === 1 ? 0 : rows
+}
+
+/** 1 when the splice's slot has no live plan row or one for another pair. */
+function mismatched(j: Judging, splice: JudgedSplice): number {
+  const row =
+    j.known && splice === j.added
+      ? (j.known.planRow ?? undefined)
+      : j.st.planAtSlot.get(splice.trayId, splice.slot, j.closureId)
+  return row === undefined || !samePair(row, splice) ? 1 : 0
+}
+
 /**
  * Inserts a splice and keeps closure_totals current in the caller's transaction; a splice that supersedes
  * another makes that attempt no longer current.
@@ -328,50 +371,29 @@ export function insertSplice(
   const removed = old !== undefined && old.isCurrent === 1 && old.deleted === 0 ? old : undefined
 
   // Everything is read before the write, and the new state worked out from it rather than read again.
-  const counts = options.planPairs
-  const planRowsWith = (pair: FiberPair) => {
-    let n = counts?.get(closureId, pair)
-    if (n === undefined) {
-      n = st.planRowsWithPair.get({ closureId, ...pairOf(pair) })?.n ?? 0
-      counts?.set(closureId, pair, n)
-    }
-    return n
+  const judging: Judging = {
+    st,
+    closureId,
+    counts: options.planPairs,
+    known: options.known,
+    added,
+    exceptId: removed?.id ?? null,
   }
-  const { known } = options
-  // Plan rows logged only through `splice`: none while another current splice joins its pair too.
-  const loggedOnlyBy = (splice: JudgedSplice) => {
-    const rows = planRowsWith(splice)
-    if (rows === 0) return 0
-    const exceptId = removed?.id ?? null
-    // Every current splice joining the added pair shares a fiber end with it, so it is among the neighbours.
-    if (known && splice === added)
-      return known.neighbours.some((n) => n.id !== exceptId && samePair(n, splice)) ? 0 : rows
-    const params = { closureId, ...pairOf(splice), exceptId }
-    return st.otherCurrentWithPair.get(params)?.has === 1 ? 0 : rows
-  }
-  const mismatched = (splice: JudgedSplice) => {
-    const row =
-      known && splice === added
-        ? (known.planRow ?? undefined)
-        : st.planAtSlot.get(splice.trayId, splice.slot, closureId)
-    return row === undefined || !samePair(row, splice) ? 1 : 0
-  }
-
   let logged = 0
   let offPlan = 0
   let mismatches = 0
   const samePairAsRemoved = removed !== undefined && samePair(removed, added)
   // A re-splice of the same joint (the usual case) leaves the pair and slot verdicts as they were.
   if (!samePairAsRemoved) {
-    logged += loggedOnlyBy(added)
-    offPlan += planRowsWith(added) === 0 ? 1 : 0
+    logged += loggedOnlyBy(judging, added)
+    offPlan += planRowsWith(judging, added) === 0 ? 1 : 0
     if (removed) {
-      logged -= loggedOnlyBy(removed)
-      offPlan -= planRowsWith(removed) === 0 ? 1 : 0
+      logged -= loggedOnlyBy(judging, removed)
+      offPlan -= planRowsWith(judging, removed) === 0 ? 1 : 0
     }
   }
   if (!(samePairAsRemoved && removed.trayId === added.trayId && removed.slot === added.slot)) {
-    mismatches += mismatched(added) - (removed ? mismatched(removed) : 0)
+    mismatches += mismatched(judging, added) - (removed ? mismatched(judging, removed) : 0)
   }
   const oldHadPhoto = removed ? st.hasPhoto.get(removed.id)?.has === 1 : false
 

@@ -1,5 +1,5 @@
 import type BetterSqlite3 from 'better-sqlite3'
-import { type Conn, rawSqlite, type Sqlite } from '#db/client'
+import { type Conn, HeldRows, rawSqlite, type Sqlite } from '#db/client'
 
 // sync_clients, applied_mutations and rejected_mutations: the server's memory of what each device sent.
 // Prepared once per connection: every pushed mutation reads and writes here.
@@ -33,7 +33,6 @@ interface Statements {
   bind: BetterSqlite3.Statement<[string, string, string, string]>
   advance: BetterSqlite3.Statement<[number, string, string]>
   result: BetterSqlite3.Statement<[string, number], { result: string }>
-  store: BetterSqlite3.Statement<[string, number, string, string, string]>
   quarantine: BetterSqlite3.Statement<[Record<string, unknown>]>
   rejected: BetterSqlite3.Statement<[number], RawRejected>
   rejectedList: BetterSqlite3.Statement<[{ open: number; max: number }], RawRejected>
@@ -58,9 +57,6 @@ function statements(sqlite: Sqlite): Statements {
     ),
     advance: sqlite.prepare('UPDATE sync_clients SET last_seq = ?, last_seen_at = ? WHERE client_id = ?'),
     result: sqlite.prepare('SELECT result FROM applied_mutations WHERE client_id = ? AND seq = ?'),
-    store: sqlite.prepare(
-      'INSERT INTO applied_mutations (client_id, seq, name, result, applied_at) VALUES (?, ?, ?, ?, ?)',
-    ),
     quarantine: sqlite.prepare(
       `INSERT INTO rejected_mutations (client_id, seq, user_id, name, args, code, message, at)
        VALUES (@clientId, @seq, @userId, @name, @args, @code, @message, @at)`,
@@ -95,8 +91,31 @@ export function advanceSyncClient(conn: Conn, clientId: string, lastSeq: number,
   statements(rawSqlite(conn)).advance.run(lastSeq, at, clientId)
 }
 
+// A push batch holds its answers and writes them together at its end (holdAnswers).
+const heldAnswers = new HeldRows('applied_mutations', ['client_id', 'seq', 'name', 'result', 'applied_at'])
+
+/**
+ * From now until the transaction ends, the connection's stored answers are held and written together by
+ * writeHeldAnswers; for a run without savepoints only, as holdAuditRows. Reading an answer (storedResult,
+ * syncReads' field stamps) writes the held ones first.
+ */
+export function holdAnswers(conn: Conn): void {
+  heldAnswers.hold(conn)
+}
+
+/** Writes the held answers; call before the transaction commits. */
+export function writeHeldAnswers(conn: Conn): void {
+  heldAnswers.write(conn)
+}
+
+/** Stops holding answers, dropping any still held (their transaction is rolled back or done). */
+export function dropHeldAnswers(conn: Conn): void {
+  heldAnswers.drop(conn)
+}
+
 /** The answer stored for (clientId, seq), as it was first given. */
 export function storedResult<T>(conn: Conn, clientId: string, seq: number): T | undefined {
+  writeHeldAnswers(conn)
   const row = statements(rawSqlite(conn)).result.get(clientId, seq)
   return row ? (JSON.parse(row.result) as T) : undefined
 }
@@ -106,13 +125,8 @@ export function storeResult(
   conn: Conn,
   entry: { clientId: string; seq: number; name: string; result: unknown; at: string },
 ): void {
-  statements(rawSqlite(conn)).store.run(
-    entry.clientId,
-    entry.seq,
-    entry.name,
-    JSON.stringify(entry.result),
-    entry.at,
-  )
+  const values = [entry.clientId, entry.seq, entry.name, JSON.stringify(entry.result), entry.at]
+  heldAnswers.add(conn, values)
 }
 
 /** Stores a refused payload so it can be shown, exported and re-applied; returns its id. */

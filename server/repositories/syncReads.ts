@@ -3,6 +3,8 @@ import { type Conn, rawSqlite, type Sqlite } from '#db/client'
 import type { NeighbourSplice } from '#shared/domain/acceptance'
 import type { SlottedPair } from '#shared/domain/plan'
 import type { ClosureState, Role } from '#shared/schemas/enums'
+import { writeHeldAuditRows } from './audit'
+import { writeHeldAnswers } from './syncLog'
 
 // The reads a pushed mutation makes before it writes, as prepared statements: they run for every mutation
 // of every batch, inside the batch's transaction.
@@ -63,6 +65,7 @@ interface Statements {
   planRow: BetterSqlite3.Statement<[string, string, number], SlottedPair>
   closurePlan: BetterSqlite3.Statement<[string], SlottedPair>
   neighbours: BetterSqlite3.Statement<[Record<string, unknown>], NeighbourSplice>
+  closureCurrent: BetterSqlite3.Statement<[string], NeighbourSplice>
   stamps: BetterSqlite3.Statement<[string], FieldStamp & { field: string }>
 }
 
@@ -115,6 +118,11 @@ function statements(sqlite: Sqlite): Statements {
            WHERE closure_id = @closureId AND is_current = 1 AND deleted = 0 AND cable_b_id = @cableBId AND fiber_b = @fiberB)
          AND is_current = 1 AND deleted = 0 AND id <> @id
        ORDER BY rowid`,
+    ),
+    closureCurrent: sqlite.prepare(
+      `SELECT id, closure_id AS closureId, tray_id AS trayId, slot, cable_a_id AS cableAId, fiber_a AS fiberA,
+         cable_b_id AS cableBId, fiber_b AS fiberB
+       FROM splices WHERE closure_id = ? AND is_current = 1 AND deleted = 0 ORDER BY rowid`,
     ),
     // audit_log has no server_seq column, but every row a push writes names its (client_id, mutation_seq),
     // and applied_mutations keeps the server_seq that mutation was applied at: together they date the change.
@@ -194,8 +202,16 @@ export function spliceNeighbours(
   })
 }
 
+/** Every current live splice of the closure, in the fields spliceNeighbours gives. */
+export function closureCurrentSplices(conn: Conn, closureId: string): NeighbourSplice[] {
+  return statements(rawSqlite(conn)).closureCurrent.all(closureId)
+}
+
 /** The latest accepted change of each field of a splice, by field name. */
 export function spliceFieldStamps(conn: Conn, spliceId: string): Map<string, FieldStamp> {
+  // Rows a push batch still holds are part of the trail.
+  writeHeldAuditRows(conn)
+  writeHeldAnswers(conn)
   const stamps = new Map<string, FieldStamp>()
   for (const { field, ...stamp } of statements(rawSqlite(conn)).stamps.all(spliceId)) {
     if (!stamps.has(field)) stamps.set(field, stamp)

@@ -1,5 +1,13 @@
 import { ZodError, z } from 'zod'
-import { currentServerSeq, nextServerSeq, writeTransaction, type Sqlite } from '#db/client'
+import {
+  currentServerSeq,
+  dropHeldServerSeq,
+  holdServerSeq,
+  nextServerSeq,
+  type Sqlite,
+  writeHeldServerSeq,
+  writeTransaction,
+} from '#db/client'
 import {
   type Mutation,
   type MutationName,
@@ -11,19 +19,22 @@ import type { SyncTestHooks } from '../config'
 import type { AppContext } from '../context'
 import { AppError, notFound } from '../errors'
 import type { Actor } from '../middleware/auth'
-import { recordEvent } from '../repositories/audit'
+import { dropHeldAuditRows, holdAuditRows, recordEvent, writeHeldAuditRows } from '../repositories/audit'
 import { SpliceWriteError } from '../repositories/splices'
 import {
   advanceSyncClient,
   bindSyncClient,
+  dropHeldAnswers,
   findRejected,
   findSyncClient,
+  holdAnswers,
   listRejectedRows,
   quarantineMutation,
   type RejectedRow,
   resolveRejected,
   storedResult,
   storeResult,
+  writeHeldAnswers,
 } from '../repositories/syncLog'
 import { closureFacts } from '../repositories/syncReads'
 import { canSeeClosure } from './access'
@@ -137,9 +148,10 @@ function attempt(ctx: AppContext, work: Attempt, index: number): StoredResult {
     memo.totals.keepStaged()
     return result
   } catch (error) {
-    // The savepoint is gone, and with it any closure change the mutation made after the memo read it.
+    // The savepoint is gone, and with it any closure or splice change the mutation made after the memo read it.
     memo.totals.dropStaged()
     memo.closures.clear()
+    memo.splices.clear()
     const refusal = refusalOf(error)
     if (!refusal) throw error
     return { seq: mutation.seq, status: 'rejected', ...refusal }
@@ -218,6 +230,13 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       )
     }
     let lastSeq = client.lastSeq
+    // Unguarded, the batch stands or falls whole, so its audit rows, answers and change sequence can wait
+    // and go out together.
+    if (!guarded) {
+      holdAuditRows(sqlite)
+      holdAnswers(sqlite)
+      holdServerSeq(sqlite)
+    }
     const memo = newBatchMemo()
     const results: MutationResult[] = []
     for (const [index, mutation] of input.mutations.entries()) {
@@ -234,8 +253,12 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
           results.push({ seq: rest.seq, status: 'gap', expectedSeq })
         break
       }
-      // Anything but a new splice may read or rebuild totals rows: the waiting deltas are written first.
-      if (!deferrableTotals.has(mutation.name)) memo.totals.flush(sqlite)
+      // Anything but a new splice may read or rebuild totals rows, or move and remove splices: the waiting
+      // deltas are written first, and the batch's memory of current splices is dropped.
+      if (!deferrableTotals.has(mutation.name)) {
+        memo.totals.flush(sqlite)
+        memo.splices.clear()
+      }
       const work: Attempt = { actor, clientId: input.clientId, mutation, at, memo }
       const result = guarded ? attempt(ctx, work, index) : attemptUnguarded(ctx, work, index)
       if (result.status === 'rejected') quarantine(sqlite, work, result)
@@ -245,15 +268,28 @@ export function pushMutations(ctx: AppContext, actor: Actor, body: unknown): Pus
       pauseForKill(hooks, index + 1, input.mutations.length)
     }
     memo.totals.flush(sqlite)
+    writeHeldAuditRows(sqlite)
+    writeHeldAnswers(sqlite)
+    writeHeldServerSeq(sqlite)
     advanceSyncClient(sqlite, input.clientId, lastSeq, at)
     return { results, lastSeq }
   })
+  const runOnce = (guarded: boolean): PushResponse => {
+    try {
+      return run.immediate(guarded)
+    } finally {
+      // Written before the commit, or rolled back with the batch: nothing held outlives it.
+      dropHeldAuditRows(sqlite)
+      dropHeldAnswers(sqlite)
+      dropHeldServerSeq(sqlite)
+    }
+  }
   try {
     try {
-      return run.immediate(false)
+      return runOnce(false)
     } catch (error) {
       if (!(error instanceof RunGuarded)) throw error
-      return run.immediate(true)
+      return runOnce(true)
     }
   } catch (error) {
     if (isTemporaryFailure(error)) {

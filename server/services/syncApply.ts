@@ -2,8 +2,8 @@ import { eq } from 'drizzle-orm'
 import { v7 as uuidv7 } from 'uuid'
 import type { Conn } from '#db/client'
 import { closures, notes, photoLinks, splices } from '#db/schema/index'
-import { assessSplice } from '#shared/domain/acceptance'
-import { type FiberPair, pairKey, samePair } from '#shared/domain/plan'
+import { assessSplice, type NeighbourSplice } from '#shared/domain/acceptance'
+import { type FiberPair, fiberEndKey, pairKey, samePair, slotKey } from '#shared/domain/plan'
 import type { SlottedPair } from '#shared/domain/plan'
 import type { Role } from '#shared/schemas/enums'
 import type { ProjectLimits } from '#shared/schemas/project'
@@ -26,6 +26,7 @@ import { closuresShowingPhoto, findPhoto } from '../repositories/photos'
 import {
   cableFacts,
   type ClosureFacts,
+  closureCurrentSplices,
   closureFacts,
   closurePlanRows,
   type CableFacts,
@@ -90,6 +91,8 @@ export interface BatchMemo {
   cables: Map<string, CableFacts | undefined>
   /** Plan rows by closure, slot and pair (see BatchPlans). */
   plans: BatchPlans
+  /** Current splices of the closures the batch's new splices keep coming back to (see BatchSplices). */
+  splices: BatchSplices
   /** Closure totals deltas of new splices, written when the batch settles (see settleTotals). */
   totals: PendingTotals
 }
@@ -101,6 +104,7 @@ export function newBatchMemo(): BatchMemo {
     trays: new Map(),
     cables: new Map(),
     plans: new BatchPlans(),
+    splices: new BatchSplices(),
     totals: new PendingTotals(),
   }
 }
@@ -151,6 +155,101 @@ export class BatchPlans implements PlanPairCounts {
 
   set(closureId: string, pair: FiberPair, count: number): void {
     this.pairs.set(`${closureId}|${pairKey(pair)}`, count)
+  }
+}
+
+/** A closure's current live splices, by id and by the tray slot and fiber ends a neighbour may share. */
+interface CurrentSplices {
+  byId: Map<string, NeighbourSplice>
+  byPlace: Map<string, Set<string>>
+}
+
+const slotPlace = (s: Pick<NeighbourSplice, 'trayId' | 'slot'>) => `slot|${slotKey(s.trayId, s.slot)}`
+const endPlace = (cableId: string, fiber: number) => `end|${fiberEndKey(cableId, fiber)}`
+
+/**
+ * The current live splices of the closures a batch's new splices keep coming back to, so a new splice's
+ * neighbours (what syncReads spliceNeighbours reads: the closure's other current splices sharing its slot or
+ * a fiber end) come from memory instead of five index probes each. Like BatchPlans, a closure's splices are
+ * read once, from its `BatchPlans.wholePlanAfter`-th new splice in the batch on; the batch's new splices and
+ * re-splices keep them current. Any other mutation may move or remove splices, so the batch drops them all
+ * before one (sync.ts), and on any refusal (its savepoint may have undone a write).
+ */
+export class BatchSplices {
+  private readonly uses = new Map<string, number>()
+  private readonly closures = new Map<string, CurrentSplices>()
+
+  /** Counts a new splice of the closure; reads its current splices when the batch keeps coming back to it. */
+  touch(conn: Conn, closureId: string): void {
+    if (this.closures.has(closureId)) return
+    const uses = (this.uses.get(closureId) ?? 0) + 1
+    this.uses.set(closureId, uses)
+    if (uses < BatchPlans.wholePlanAfter) return
+    const current: CurrentSplices = { byId: new Map(), byPlace: new Map() }
+    for (const splice of closureCurrentSplices(conn, closureId)) BatchSplices.add(current, splice)
+    this.closures.set(closureId, current)
+  }
+
+  /** As spliceNeighbours: from memory when the closure's splices are held, read otherwise. */
+  neighbours(conn: Conn, splice: NeighbourSplice): NeighbourSplice[] {
+    const current = this.closures.get(splice.closureId)
+    if (!current) return spliceNeighbours(conn, splice)
+    const ids = new Set<string>()
+    for (const place of [
+      slotPlace(splice),
+      endPlace(splice.cableAId, splice.fiberA),
+      endPlace(splice.cableBId, splice.fiberB),
+    ]) {
+      for (const id of current.byPlace.get(place) ?? []) if (id !== splice.id) ids.add(id)
+    }
+    return [...ids].map((id) => current.byId.get(id)!)
+  }
+
+  /** A new splice was stored as current; the attempt it replaced, if any, is no longer current. */
+  inserted(splice: NeighbourSplice, supersededId: string | null): void {
+    const current = this.closures.get(splice.closureId)
+    if (!current) return
+    const old = supersededId === null ? undefined : current.byId.get(supersededId)
+    if (old) {
+      current.byId.delete(old.id)
+      for (const place of BatchSplices.places(old)) current.byPlace.get(place)?.delete(old.id)
+    }
+    BatchSplices.add(current, splice)
+  }
+
+  clear(): void {
+    this.uses.clear()
+    this.closures.clear()
+  }
+
+  private static places(splice: NeighbourSplice): string[] {
+    return [
+      slotPlace(splice),
+      endPlace(splice.cableAId, splice.fiberA),
+      endPlace(splice.cableBId, splice.fiberB),
+    ]
+  }
+
+  private static add(current: CurrentSplices, splice: NeighbourSplice): void {
+    const kept: NeighbourSplice = {
+      id: splice.id,
+      closureId: splice.closureId,
+      trayId: splice.trayId,
+      slot: splice.slot,
+      cableAId: splice.cableAId,
+      fiberA: splice.fiberA,
+      cableBId: splice.cableBId,
+      fiberB: splice.fiberB,
+    }
+    current.byId.set(kept.id, kept)
+    for (const place of BatchSplices.places(kept)) {
+      let ids = current.byPlace.get(place)
+      if (!ids) {
+        ids = new Set()
+        current.byPlace.set(place, ids)
+      }
+      ids.add(kept.id)
+    }
   }
 }
 
@@ -271,7 +370,7 @@ function assessed(
   splice: Parameters<typeof assessSplice>[0],
 ): { flags: string[]; known: KnownBeforeInsert } {
   const planRow = env.memo.plans.rowAt(env.conn, closure.id, splice.trayId, splice.slot)
-  const neighbours = spliceNeighbours(env.conn, splice)
+  const neighbours = env.memo.splices.neighbours(env.conn, splice)
   const { flags } = assessSplice(splice, limits, {
     planRow,
     otherCurrentSplices: neighbours,
@@ -316,13 +415,15 @@ function createSplice(env: ApplyEnv, args: unknown, name: 'createSplice' | 'resp
   }
   const limits = limitsOf(env, closure.projectId)
   env.memo.plans.touch(env.conn, closure.id)
+  env.memo.splices.touch(env.conn, closure.id)
   // The plan row and neighbours the flags were judged from also settle the totals deltas: no second read.
   const { flags, known } = assessed(env, closure, limits, input)
-  insertSplice(
+  const { supersededId } = insertSplice(
     env.conn,
     { ...input, flags, reviewState: null, createdAt: env.at },
     { serverSeq: env.serverSeq, limits, pending: env.memo.totals, known, planPairs: env.memo.plans },
   )
+  env.memo.splices.inserted(input, supersededId)
   recordEvent(env.conn, change(env, 'splice', input.id), 'created', input)
   // The first splice starts the work on a closure.
   if (closure.state === 'planned')

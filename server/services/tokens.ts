@@ -28,10 +28,56 @@ export async function signAccessToken(
     .sign(config.jwtSecret)
 }
 
+// The verifying key, imported once per secret: jose imports raw bytes again on every call, which was about
+// half of verifying a token (tests/bench/push.bench.ts, once per push request).
+const verifyKeys = new WeakMap<Uint8Array, Promise<CryptoKey>>()
+
+function verifyKey(secret: Uint8Array): Promise<CryptoKey> {
+  let key = verifyKeys.get(secret)
+  if (!key) {
+    const raw = new Uint8Array(secret)
+    key = crypto.subtle.importKey('raw', raw, { name: 'HMAC', hash: 'SHA-256' }, false, ['verify'])
+    verifyKeys.set(secret, key)
+  }
+  return key
+}
+
+// Tokens this process has verified, with what they carry: the same bytes under the same secret verify the
+// same way, so only the times are checked again. A device pushes batch after batch with one token, and each
+// verification is two trips to the crypto thread pool, about 1 ms of every push (tests/bench/push.bench.ts).
+interface Verified {
+  claims: AccessClaims
+  notBefore: number
+  expires: number
+}
+const verifiedTokens = new WeakMap<Uint8Array, Map<string, Verified>>()
+const verifiedKept = 1000
+
+function verifiedToken(config: Config, token: string): AccessClaims | undefined {
+  const found = verifiedTokens.get(config.jwtSecret)?.get(token)
+  if (!found) return undefined
+  // As jose judges them: expired once now reaches exp, not yet valid while nbf is ahead of now.
+  const now = Math.floor(Date.now() / 1000)
+  if (now >= found.expires || found.notBefore > now) return undefined
+  return found.claims
+}
+
+function keepVerified(config: Config, token: string, entry: Verified): void {
+  let kept = verifiedTokens.get(config.jwtSecret)
+  if (!kept) {
+    kept = new Map()
+    verifiedTokens.set(config.jwtSecret, kept)
+  }
+  if (kept.size >= verifiedKept) kept.clear()
+  kept.set(token, entry)
+}
+
 /** Verifies signature, algorithm, issuer, audience and times; any failure is a 401. */
 export async function verifyAccessToken(config: Config, token: string): Promise<AccessClaims> {
+  const known = verifiedToken(config, token)
+  if (known) return known
   try {
-    const { payload } = await jwtVerify(token, config.jwtSecret, {
+    const { payload } = await jwtVerify(token, await verifyKey(config.jwtSecret), {
       algorithms: [algorithm],
       issuer: config.jwtIssuer,
       audience: config.jwtAudience,
@@ -39,7 +85,10 @@ export async function verifyAccessToken(config: Config, token: string): Promise<
     })
     if (typeof payload.sub !== 'string' || typeof payload.tv !== 'number')
       throw unauthorized('The token is not valid.')
-    return { userId: payload.sub, tokenVersion: payload.tv }
+    const claims = { userId: payload.sub, tokenVersion: payload.tv }
+    // requiredClaims makes both numbers.
+    keepVerified(config, token, { claims, notBefore: payload.nbf!, expires: payload.exp! })
+    return claims
   } catch (error) {
     if (error instanceof errors.JWTExpired) throw unauthorized('Your session has expired; sign in again.')
     if (error instanceof errors.JOSEError) throw unauthorized('The token is not valid.')

@@ -1,6 +1,6 @@
 import { SignJWT, base64url } from 'jose'
 import request from 'supertest'
-import { afterEach, beforeEach, describe, expect, it } from 'vitest'
+import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest'
 import { signAccessToken } from '../../server/services/tokens'
 import { findUserByEmail } from '../../server/repositories/users'
 import { demoUser, makeTestApp, tableCounts, type TestApp } from './support/app'
@@ -136,6 +136,24 @@ describe('access tokens', () => {
     const res = await me(token)
     expect(res.status).toBe(401)
     expect(res.body.error.message).toMatch(/expired/)
+  })
+
+  it('when a token that was accepted runs out, then the next request with it is 401 expired', async () => {
+    // Verified tokens are remembered; their times must still be judged on every request.
+    const token = await signAccessToken(t.config, {
+      userId: office().id,
+      tokenVersion: office().tokenVersion,
+    })
+    expect((await me(token)).status).toBe(200)
+    vi.useFakeTimers({ toFake: ['Date'] })
+    try {
+      vi.setSystemTime(Date.now() + 16 * 60_000)
+      const res = await me(token)
+      expect(res.status).toBe(401)
+      expect(res.body.error.message).toMatch(/expired/)
+    } finally {
+      vi.useRealTimers()
+    }
   })
 
   it('when the token is not yet valid, then 401', async () => {

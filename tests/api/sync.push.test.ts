@@ -3,7 +3,7 @@ import { v7 as uuidv7 } from 'uuid'
 import BetterSqlite3 from 'better-sqlite3'
 import { afterEach, describe, expect, it } from 'vitest'
 import { type AssessedSplice, assessSplice } from '#shared/domain/acceptance'
-import { pushResponseSchema } from '#shared/schemas/sync'
+import { type PushResponse, pushResponseSchema } from '#shared/schemas/sync'
 import * as audit from '../../server/repositories/audit'
 import { isTemporaryFailure } from '../../server/services/sync'
 import { makeTestApp, tableCounts, type TestApp } from './support/app'
@@ -123,6 +123,68 @@ describe('push: every mutation applies', () => {
     expect(after.resplices).toBe(before.resplices + 1)
     expect(after.over_maximum).toBe(before.over_maximum - 1)
     expect(after.logged).toBe(before.logged)
+  })
+
+  it('when splices sharing slots and fiber ends arrive in one batch, then flags and totals are those of one push each', async () => {
+    // One batch judges a closure's later splices from the splices it holds in memory; one push per mutation
+    // reads them from the table every time. Both must give the same flags and the same totals row.
+    const run = async (app: TestApp, batched: boolean) => {
+      const client = newClientId()
+      const me = userId(app, 'splicer')
+      const at = (tray: number, slot: number) => plannedSlot(app, 'VLT-01', tray, slot)
+      const s1 = spliceArgs(at(1, 1), me, client)
+      const s2 = spliceArgs(at(1, 2), me, client)
+      const s3 = spliceArgs(at(1, 3), me, client)
+      const s4 = spliceArgs(at(1, 4), me, client)
+      // A fiber end of s1 in another slot; another pair in s2's slot; s2 made again; B end of s3; A end of r2.
+      const s5 = spliceArgs({ ...at(1, 5), cableAId: at(1, 1).cableAId, fiberA: at(1, 1).fiberA }, me, client)
+      const s6 = spliceArgs({ ...at(1, 6), trayId: at(1, 2).trayId, slot: 2 }, me, client)
+      const r2 = spliceArgs(at(1, 2), me, client, {
+        attempt: 2,
+        supersedesId: s2.id,
+        respliceReason: 'bad_cleave',
+      })
+      const s8 = spliceArgs({ ...at(2, 1), cableBId: at(1, 3).cableBId, fiberB: at(1, 3).fiberB }, me, client)
+      const s9 = spliceArgs({ ...at(2, 2), cableAId: at(1, 2).cableAId, fiberA: at(1, 2).fiberA }, me, client)
+      const s10 = spliceArgs({ ...at(2, 3), trayId: at(1, 2).trayId, slot: 2 }, me, client)
+      const all = [s1, s2, s3, s4, s5, s6, r2, s8, s9, s10]
+      const mutations = all.map((args, i) =>
+        mutation(i + 1, args.supersedesId ? 'resplice' : 'createSplice', args),
+      )
+      const answers: PushResponse['results'] = []
+      if (batched) answers.push(...(await pushOk(app, 'splicer', client, mutations)).results)
+      else for (const m of mutations) answers.push(...(await pushOk(app, 'splicer', client, [m])).results)
+      expect(answers.map((r) => r.status)).toEqual(all.map(() => 'applied'))
+      const row = (id: unknown) =>
+        app.database.sqlite.prepare('SELECT flags, is_current FROM splices WHERE id = ?').get(id) as {
+          flags: string
+          is_current: number
+        }
+      const {
+        closure_id: _c,
+        project_id: _p,
+        last_activity_at: _l,
+        ...totals
+      } = app.database.sqlite
+        .prepare('SELECT * FROM closure_totals WHERE closure_id = ?')
+        .get(s1.closureId) as Record<string, unknown>
+      return { splices: all.map((args) => row(args.id)), totals }
+    }
+    t = makeTestApp()
+    const batched = await run(t, true)
+    const other = makeTestApp()
+    try {
+      expect(batched).toEqual(await run(other, false))
+    } finally {
+      other.close()
+    }
+    const flags = batched.splices.map((s) => JSON.parse(s.flags) as string[])
+    expect(flags[4]).toContain('fiber_reused')
+    expect(flags[5]).toContain('slot_reused')
+    expect(flags[7]).toContain('fiber_reused')
+    expect(flags[8]).toContain('fiber_reused')
+    expect(flags[9]).toContain('slot_reused')
+    expect(batched.splices[1]!.is_current).toBe(0)
   })
 
   it('when a splice is edited, then the fields change, flags and totals follow, and each field is audited', async () => {
