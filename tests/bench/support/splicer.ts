@@ -77,7 +77,7 @@ export async function splicerSession(): Promise<SplicerSession> {
   let browser: Browser | undefined
   try {
     const bigClosureId = await addBigClosure(server.url)
-    browser = await launchBrowser({ viewport: { width: 360, height: 780 } })
+    browser = await launchBrowser({ viewport: { width: 360, height: 780 }, hasTouch: true })
     const page = await browser.context.newPage()
     // tsx names the functions it compiles with a `__name` helper, which the page does not have.
     await page.addInitScript({ content: 'window.__name = (fn) => fn' })

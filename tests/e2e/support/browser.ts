@@ -24,7 +24,12 @@ export interface Browser {
 
 /** A fresh Chromium profile at a phone-sized viewport unless told otherwise. */
 export async function launchBrowser(
-  options: { viewport?: { width: number; height: number }; colorScheme?: 'light' | 'dark' } = {},
+  options: {
+    viewport?: { width: number; height: number }
+    colorScheme?: 'light' | 'dark'
+    /** A touch screen, as on a phone: taps come as touch events (page.touchscreen). */
+    hasTouch?: boolean
+  } = {},
 ): Promise<Browser> {
   const profile = mkdtempSync(join(tmpdir(), 'lightseam-chromium-'))
   mkdirSync(artifactsDir, { recursive: true })
@@ -34,6 +39,7 @@ export async function launchBrowser(
     args: chromiumArgs,
     viewport: options.viewport ?? { width: 390, height: 844 },
     deviceScaleFactor: 1,
+    hasTouch: options.hasTouch ?? false,
     colorScheme: options.colorScheme ?? 'light',
     serviceWorkers: 'allow',
   })
