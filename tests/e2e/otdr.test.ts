@@ -1,3 +1,5 @@
+import { createHash } from 'node:crypto'
+import { readFileSync } from 'node:fs'
 import { join } from 'node:path'
 import { type Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
@@ -214,6 +216,24 @@ describe('the office reconciles OTDR results (Chromium)', () => {
       page.locator('[data-testid=report-closure-csv]').click(),
     ])
     expect(file.suggestedFilename()).toMatch(/^splices-VLT-01.*\.csv$/)
+    // A closure not signed off has one close-out, rendered now; a signed-off one hands out the copy stored
+    // at its sign-off (the same bytes each time) and offers one rendered as of now beside it.
+    expect(await page.locator('[data-testid=report-close-out-fresh]').count()).toBe(0)
+    await choose(page, 'report-closure', 'BLD-04 Old Maltings')
+    const closeOut = async (testId: string) => {
+      const [pdf] = await Promise.all([
+        page.waitForEvent('download'),
+        page.locator(`[data-testid=${testId}]`).click(),
+      ])
+      expect(pdf.suggestedFilename()).toBe('close-out-BLD-04-Old-Maltings.pdf')
+      const bytes = readFileSync((await pdf.path())!)
+      expect(bytes.subarray(0, 5).toString()).toBe('%PDF-')
+      return createHash('sha256').update(bytes).digest('hex')
+    }
+    const stored = await closeOut('report-close-out')
+    expect(await closeOut('report-close-out')).toBe(stored)
+    // The copy as of now carries the moment it was generated (to the millisecond), so its bytes differ.
+    expect(await closeOut('report-close-out-fresh')).not.toBe(stored)
     await page.locator('input[data-testid=report-day]').fill('2025-06-10')
     await page.locator('[data-testid=report-send]').click()
     expect(await page.locator('[data-testid=report-done]').textContent()).toContain('2025-06-10')
