@@ -1,14 +1,13 @@
 import { createHash } from 'node:crypto'
-import { mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs'
-import { tmpdir } from 'node:os'
+import { mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs'
 import { join, relative } from 'node:path'
 import { CreateBucketCommand, GetObjectCommand, ListObjectsV2Command } from '@aws-sdk/client-s3'
-import S3rver from 's3rver'
 import request from 'supertest'
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest'
+import { afterEach, describe, expect, it } from 'vitest'
 import type { Config } from '../../server/config'
 import { startDailyReport } from '../../server/mail/schedule'
 import { createS3Client } from '../../server/storage/index'
+import { useFakeS3 } from './support/fakeS3'
 import { makeTestApp, tableCounts, type TestApp } from './support/app'
 import { received } from './support/mail'
 import { pdfText } from './support/pdf'
@@ -19,26 +18,7 @@ import { closureId, mutation, newClientId, pushOk } from './support/sync'
 // and over S3 (a fake S3 server on 127.0.0.1 started here), each with a real push and the local fake SMTP.
 
 const bucket = 'lightseam-reports'
-let fakeS3: S3rver
-let s3Endpoint: string
-const folders: string[] = []
-const folder = () => {
-  const dir = mkdtempSync(join(tmpdir(), 'lightseam-close-out-'))
-  folders.push(dir)
-  return dir
-}
-
-beforeAll(async () => {
-  fakeS3 = new S3rver({
-    address: '127.0.0.1',
-    port: 0,
-    silent: true,
-    directory: folder(),
-    configureBuckets: [{ name: bucket, configs: [] }],
-  })
-  const address = await fakeS3.run()
-  s3Endpoint = `http://127.0.0.1:${address.port}`
-})
+const { endpoint: s3Endpoint } = useFakeS3(bucket, 'lightseam-close-out-')
 
 let apps: TestApp[] = []
 afterEach(async () => {
@@ -47,11 +27,6 @@ afterEach(async () => {
     t.close()
   }
   apps = []
-})
-
-afterAll(async () => {
-  await fakeS3?.close()
-  for (const dir of folders) rmSync(dir, { recursive: true, force: true })
 })
 
 const sha256 = (bytes: Buffer | Uint8Array) => createHash('sha256').update(bytes).digest('hex')
@@ -63,7 +38,7 @@ const s3Storage = (name: string) =>
     driver: 's3',
     bucket: name,
     region: 'us-east-1',
-    endpoint: s3Endpoint,
+    endpoint: s3Endpoint(),
     accessKeyId: 'S3RVER',
     secretAccessKey: 'S3RVER',
     // A prefix of its own per app: the apps share the fake server's bucket.
@@ -92,7 +67,7 @@ interface Driver {
 const s3Client = () =>
   createS3Client({
     region: 'us-east-1',
-    endpoint: s3Endpoint,
+    endpoint: s3Endpoint(),
     accessKeyId: 'S3RVER',
     secretAccessKey: 'S3RVER',
   })

@@ -1,8 +1,6 @@
-import { existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs'
-import { tmpdir } from 'node:os'
+import { existsSync, readdirSync, writeFileSync } from 'node:fs'
 import { join } from 'node:path'
 import type { Readable } from 'node:stream'
-import S3rver from 's3rver'
 import request from 'supertest'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { ConfigError, loadConfig } from '../../server/config'
@@ -12,6 +10,7 @@ import {
   createStorage,
   type BlobStore,
 } from '../../server/storage/index'
+import { useFakeS3 } from './support/fakeS3'
 import { makeTestApp, type TestApp } from './support/app'
 import { jpegBytes, sha256, upload } from './support/photos'
 import { closureId, mutation, newClientId, pushOk } from './support/sync'
@@ -21,37 +20,13 @@ import { closureId, mutation, newClientId, pushOk } from './support/sync'
 // Stored close-out reports use the same drivers in their own namespace (tests/api/closeOutArchive.test.ts).
 
 const bucket = 'lightseam-photos'
-let fakeS3: S3rver
-let s3Endpoint: string
-const folders: string[] = []
-const folder = () => {
-  const dir = mkdtempSync(join(tmpdir(), 'lightseam-storage-'))
-  folders.push(dir)
-  return dir
-}
-
-beforeAll(async () => {
-  fakeS3 = new S3rver({
-    address: '127.0.0.1',
-    port: 0,
-    silent: true,
-    directory: folder(),
-    configureBuckets: [{ name: bucket, configs: [] }],
-  })
-  const address = await fakeS3.run()
-  s3Endpoint = `http://127.0.0.1:${address.port}`
-})
-
-afterAll(async () => {
-  await fakeS3?.close()
-  for (const dir of folders) rmSync(dir, { recursive: true, force: true })
-})
+const { folder, endpoint: s3Endpoint } = useFakeS3(bucket, 'lightseam-storage-')
 
 // s3rver takes any key pair it is given; its own defaults are used here.
 const s3Options = (prefix = 'field/') => ({
   bucket,
   region: 'us-east-1',
-  endpoint: s3Endpoint,
+  endpoint: s3Endpoint(),
   accessKeyId: 'S3RVER',
   secretAccessKey: 'S3RVER',
   prefix,
@@ -241,7 +216,7 @@ describe('photo store configuration', () => {
         ...base,
         LIGHTSEAM_STORAGE: 's3',
         LIGHTSEAM_S3_BUCKET: bucket,
-        LIGHTSEAM_S3_ENDPOINT: s3Endpoint,
+        LIGHTSEAM_S3_ENDPOINT: s3Endpoint(),
         LIGHTSEAM_S3_PREFIX: 'corvell/',
       },
       secret,
@@ -249,7 +224,7 @@ describe('photo store configuration', () => {
     expect(config.storage).toMatchObject({
       driver: 's3',
       bucket,
-      endpoint: s3Endpoint,
+      endpoint: s3Endpoint(),
       prefix: 'corvell/',
     })
   })
