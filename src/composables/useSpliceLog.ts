@@ -39,16 +39,20 @@ export function useSpliceLog(closureId: () => string) {
     const current = db()
     const id = entry.edit ? entry.edit.id : uuidv7()
     const previous = entry.resplice ? toRaw(entry.resplice.previous) : null
-    await onPrepared?.({
-      id,
-      trayId: entry.trayId,
-      slot: entry.slot,
+    const ends = {
       cableAId: entry.cableAId,
       fiberA: entry.fiberA,
       cableBId: entry.cableBId,
       fiberB: entry.fiberB,
+    }
+    const attempt = entry.edit ? entry.edit.attempt : previous ? previous.attempt + 1 : 1
+    await onPrepared?.({
+      id,
+      trayId: entry.trayId,
+      slot: entry.slot,
+      ...ends,
       lossDb: entry.lossDb,
-      attempt: entry.edit ? entry.edit.attempt : previous ? previous.attempt + 1 : 1,
+      attempt,
       acceptReason: entry.acceptReason,
     })
     const photo = entry.photo ? await compressPhoto(entry.photo, entry.photo.name) : null
@@ -58,10 +62,7 @@ export function useSpliceLog(closureId: () => string) {
         method: entry.method,
         notes: entry.notes,
         acceptReason: entry.acceptReason,
-        cableAId: entry.cableAId,
-        fiberA: entry.fiberA,
-        cableBId: entry.cableBId,
-        fiberB: entry.fiberB,
+        ...ends,
       }
       const before = entry.edit
       // Only changed fields travel: an untouched field must not overwrite a newer value on the server.
@@ -76,13 +77,10 @@ export function useSpliceLog(closureId: () => string) {
         closureId: closureId(),
         trayId: entry.trayId,
         slot: entry.slot,
-        cableAId: entry.cableAId,
-        fiberA: entry.fiberA,
-        cableBId: entry.cableBId,
-        fiberB: entry.fiberB,
+        ...ends,
         method: entry.method,
         lossDb: entry.lossDb,
-        attempt: previous ? previous.attempt + 1 : 1,
+        attempt,
         respliceReason: entry.resplice?.reason ?? null,
         respliceNote: entry.resplice?.note.trim() ? entry.resplice.note.trim() : null,
         supersedesId: previous?.id ?? null,
