@@ -1,6 +1,6 @@
 import type { BrowserContext, Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { launchBrowser, type Browser } from './support/browser'
+import { launchBrowser, type Browser, signInAt } from './support/browser'
 import { apiAs, people } from './support/review'
 import { startServer, type RunningServer } from './support/server'
 
@@ -36,11 +36,7 @@ function watchConsole(page: Page, screen: () => string) {
 }
 
 async function signIn(page: Page, who: keyof typeof people) {
-  await page.goto(server.url)
-  await page.waitForURL(/\/sign-in/)
-  await page.locator('input[data-testid=email]').fill(people[who].email)
-  await page.locator('input[data-testid=password]').fill(people[who].password)
-  await page.locator('[data-testid=sign-in]').click()
+  await signInAt(page, server.url, people[who])
 }
 
 /** A fresh browser for one role, watched from its first page on. */

@@ -1,7 +1,7 @@
 import type { Page } from 'playwright-core'
 import { v7 as uuidv7 } from 'uuid'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { launchBrowser, type Browser } from './support/browser'
+import { launchBrowser, type Browser, signInAt } from './support/browser'
 import { apiAs, canvasJpeg, people, seriousViolations, sha256Hex, shot, type ApiUser } from './support/review'
 import { startServer, type RunningServer } from './support/server'
 
@@ -34,11 +34,7 @@ const mutationOf = (seq: number, name: string, args: Record<string, unknown>) =>
 })
 
 async function signIn(page: Page, who: keyof typeof people) {
-  await page.goto(server.url)
-  await page.waitForURL(/\/sign-in/)
-  await page.locator('input[data-testid=email]').fill(people[who].email)
-  await page.locator('input[data-testid=password]').fill(people[who].password)
-  await page.locator('[data-testid=sign-in]').click()
+  await signInAt(page, server.url, people[who])
 }
 
 async function synced(page: Page) {

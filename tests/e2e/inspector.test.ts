@@ -1,7 +1,7 @@
 import type { Page } from 'playwright-core'
 import { v7 as uuidv7 } from 'uuid'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { launchBrowser } from './support/browser'
+import { launchBrowser, signInAt } from './support/browser'
 import { apiAs, people, seriousViolations, shot } from './support/review'
 import { startServer, type RunningServer } from './support/server'
 
@@ -15,11 +15,7 @@ afterAll(async () => {
 })
 
 async function signInInspector(page: Page) {
-  await page.goto(server.url)
-  await page.waitForURL(/\/sign-in/)
-  await page.locator('input[data-testid=email]').fill(people.inspector.email)
-  await page.locator('input[data-testid=password]').fill(people.inspector.password)
-  await page.locator('[data-testid=sign-in]').click()
+  await signInAt(page, server.url, people.inspector)
 }
 
 /** Every control on the page that could change a record: inputs, text areas and non-navigation buttons. */

@@ -4,7 +4,7 @@ import { join } from 'node:path'
 import { type Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { expectNoSeriousA11y } from './support/a11y'
-import { artifactsDir, launchBrowser, type Browser } from './support/browser'
+import { artifactsDir, launchBrowser, type Browser, signInAt } from './support/browser'
 import { startServer, type RunningServer } from './support/server'
 
 const office = { email: 'priya.halvorsen@corvellford-fiber.test', password: 'office-demo-1' }
@@ -23,11 +23,7 @@ const badFile = [header, rows[0], rows[1]!.replace(',A,', ',C,'), rows[2], rows[
 const goodFile = [header, ...rows, ''].join('\n')
 
 async function signIn(page: Page, url: string) {
-  await page.goto(url)
-  await page.waitForURL(/\/sign-in/)
-  await page.locator('input[data-testid=email]').fill(office.email)
-  await page.locator('input[data-testid=password]').fill(office.password)
-  await page.locator('[data-testid=sign-in]').click()
+  await signInAt(page, url, office)
   await page.locator('[data-testid=nav-office]').waitFor({ timeout: 60_000 })
 }
 

@@ -4,7 +4,7 @@ import { join } from 'node:path'
 import type { Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { demoUsers } from '#db/seed'
-import { artifactsDir, launchBrowser, type Browser } from './support/browser'
+import { artifactsDir, launchBrowser, type Browser, signInAt } from './support/browser'
 import { startServer, type RunningServer } from './support/server'
 
 const axeSource = readFileSync(createRequire(import.meta.url).resolve('axe-core/axe.min.js'), 'utf8')
@@ -12,10 +12,7 @@ const office = demoUsers.find((u) => u.key === 'office')!
 const splicer = demoUsers.find((u) => u.key === 'splicer')!
 
 async function signIn(page: Page, url: string, user: { email: string; password: string }) {
-  await page.goto(`${url}/sign-in`)
-  await page.locator('input[data-testid=email]').fill(user.email)
-  await page.locator('input[data-testid=password]').fill(user.password)
-  await page.locator('[data-testid=sign-in]').click()
+  await signInAt(page, `${url}/sign-in`, user)
 }
 
 /** axe-core on the page as it is: the serious and critical violations, by rule. */

@@ -1,7 +1,7 @@
 import { mkdirSync, mkdtempSync, rmSync } from 'node:fs'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
-import { type BrowserContext, chromium } from 'playwright-core'
+import { type BrowserContext, chromium, type Page } from 'playwright-core'
 
 /** Where screenshots go (git-ignored). */
 export const artifactsDir = join(process.cwd(), 'tests', '.artifacts')
@@ -50,4 +50,13 @@ export async function launchBrowser(
       rmSync(profile, { recursive: true, force: true })
     },
   }
+}
+
+/** Opens `url`, which the app sends to its sign-in screen, and signs in there with the person's email and password. */
+export async function signInAt(page: Page, url: string, user: { email: string; password: string }) {
+  await page.goto(url)
+  await page.waitForURL(/\/sign-in/)
+  await page.locator('input[data-testid=email]').fill(user.email)
+  await page.locator('input[data-testid=password]').fill(user.password)
+  await page.locator('[data-testid=sign-in]').click()
 }
