@@ -1,6 +1,6 @@
 import { randomUUID } from 'node:crypto'
 import type { IncomingMessage, ServerResponse } from 'node:http'
-import { pino, type Logger } from 'pino'
+import { type DestinationStream, pino, type Logger } from 'pino'
 import { pinoHttp } from 'pino-http'
 import type { Config } from '../config'
 
@@ -25,7 +25,7 @@ export function loggableUrl(url: string | undefined): string {
 const idPattern = /^[A-Za-z0-9._:-]{8,100}$/
 
 /** The process logger: JSON lines on stdout, at the configured level. */
-export function createLogger(level: Config['logLevel'], destination?: NodeJS.WritableStream): Logger {
+export function createLogger(level: Config['logLevel'], destination?: DestinationStream): Logger {
   const options = { level, base: { app: 'lightseam' } }
   return destination ? pino(options, destination) : pino(options)
 }
