@@ -19,8 +19,7 @@ export const auditLog = sqliteTable(
     outcome: text('outcome', { enum: auditOutcomes }).notNull(),
     mutationSeq: integer('mutation_seq'),
   },
-  (t) => [
-    index('audit_log_entity').on(t.entity, t.entityId, t.id),
-    index('audit_log_user').on(t.userId, t.id),
-  ],
+  // Read by record only (listAudit, the field stamps of a pull): one index. Users are never deleted, so
+  // user_id needs none for its foreign key, and each index would be written again with every audit row.
+  (t) => [index('audit_log_entity').on(t.entity, t.entityId, t.id)],
 )
