@@ -23,7 +23,12 @@ export function pairKey(pair: FiberPair): string {
 
 /** Tells whether two records join the same two fiber ends, in either orientation. */
 export function samePair(x: FiberPair, y: FiberPair): boolean {
-  return pairKey(x) === pairKey(y)
+  // Compared end by end rather than through pairKey: it runs for every neighbour of every pushed splice.
+  const aIsA = x.cableAId === y.cableAId && x.fiberA === y.fiberA
+  if (aIsA && x.cableBId === y.cableBId && x.fiberB === y.fiberB) return true
+  return (
+    x.cableAId === y.cableBId && x.fiberA === y.fiberB && x.cableBId === y.cableAId && x.fiberB === y.fiberA
+  )
 }
 
 /** Keys a tray slot. */

@@ -5,9 +5,11 @@ import {
   PlanGenerationError,
   planRowForSlot,
   rangePlan,
+  samePair,
   straightPlan,
   validatePlan,
   type PlanCable,
+  type FiberPair,
   type PlanTray,
   type SlottedPair,
 } from '#shared/domain/plan'
@@ -232,5 +234,39 @@ describe('plan generators', () => {
       }),
       { numRuns: 200 },
     )
+  })
+})
+
+describe('samePair', () => {
+  // Two cables and three fibers, so that generated pairs often share one or both ends.
+  const end = fc.record({
+    cable: fc.constantFrom('cable-1', 'cable-2'),
+    fiber: fc.integer({ min: 1, max: 3 }),
+  })
+  const pair = fc
+    .tuple(end, end)
+    .map(([a, b]): FiberPair => ({ cableAId: a.cable, fiberA: a.fiber, cableBId: b.cable, fiberB: b.fiber }))
+  const flipped = (p: FiberPair): FiberPair => ({
+    cableAId: p.cableBId,
+    fiberA: p.fiberB,
+    cableBId: p.cableAId,
+    fiberB: p.fiberA,
+  })
+
+  it('agrees with pairKey, whichever side either pair names as A', () => {
+    fc.assert(
+      fc.property(pair, pair, (x, y) => {
+        expect(samePair(x, y)).toBe(pairKey(x) === pairKey(y))
+        expect(samePair(x, flipped(y))).toBe(samePair(x, y))
+        expect(samePair(x, flipped(x))).toBe(true)
+      }),
+      { numRuns: 500 },
+    )
+  })
+
+  it('tells a shared end from the same two ends', () => {
+    const x = { cableAId: 'cable-1', fiberA: 1, cableBId: 'cable-2', fiberB: 1 }
+    expect(samePair(x, { ...x, fiberB: 2 })).toBe(false)
+    expect(samePair(x, { cableAId: 'cable-2', fiberA: 1, cableBId: 'cable-1', fiberB: 1 })).toBe(true)
   })
 })
