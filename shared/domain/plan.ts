@@ -24,11 +24,11 @@ export function pairKey(pair: FiberPair): string {
 /** Tells whether two records join the same two fiber ends, in either orientation. */
 export function samePair(x: FiberPair, y: FiberPair): boolean {
   // Compared end by end rather than through pairKey: it runs for every neighbour of every pushed splice.
-  const aIsA = x.cableAId === y.cableAId && x.fiberA === y.fiberA
-  if (aIsA && x.cableBId === y.cableBId && x.fiberB === y.fiberB) return true
-  return (
+  const asWritten =
+    x.cableAId === y.cableAId && x.fiberA === y.fiberA && x.cableBId === y.cableBId && x.fiberB === y.fiberB
+  const swapped =
     x.cableAId === y.cableBId && x.fiberA === y.fiberB && x.cableBId === y.cableAId && x.fiberB === y.fiberA
-  )
+  return asWritten || swapped
 }
 
 /** Keys a tray slot. */
