@@ -31,11 +31,17 @@ export class AuthRefusedError extends Error {
   }
 }
 
+// A network that connects but never answers would otherwise hold a sign-in or refresh, and every request
+// waiting on the refresh, for as long as the browser keeps the connection.
+const authTimeoutMs = 20_000
+
 async function post(path: string, body?: unknown): Promise<Response> {
-  // Network failures reject here (TypeError): the caller treats them as "unreachable", not "refused".
+  // Network failures and the time limit reject here (TypeError, TimeoutError): the caller treats them as
+  // "unreachable", not "refused".
   return fetch(path, {
     method: 'POST',
     credentials: 'same-origin',
+    signal: AbortSignal.timeout(authTimeoutMs),
     headers: body === undefined ? {} : { 'content-type': 'application/json' },
     body: body === undefined ? undefined : JSON.stringify(body),
   })

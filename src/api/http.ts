@@ -32,7 +32,7 @@ function shared() {
     now: () => Date.now(),
     timers: globalTimers,
     requestTimeoutMs: 30_000,
-    getAccessToken: () => session.accessToken,
+    getAccessToken: () => session.currentToken(),
     refreshAccessToken: () => session.refresh(),
   })
   return transport

@@ -29,7 +29,7 @@ async function open(userId: string) {
     db,
     baseUrl: '',
     fetch: (url, init) => fetch(url, init),
-    getAccessToken: () => session.accessToken,
+    getAccessToken: () => session.currentToken(),
     refreshAccessToken: () => session.refresh(),
     onStatus: (status) => {
       syncStatus.value = status

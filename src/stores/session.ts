@@ -87,6 +87,15 @@ export const useSessionStore = defineStore('session', () => {
     return restoring
   }
 
+  /**
+   * The access token to send, once the start-up refresh has settled: a request sent while it is still out
+   * would only come back 401 and wait for that same refresh anyway.
+   */
+  async function currentToken(): Promise<string | null> {
+    if (!accessToken.value) await restore()
+    return accessToken.value
+  }
+
   /** Signs out after a warning when edits still wait for the server; the device database is kept. */
   async function signOut(): Promise<boolean> {
     const queued = await queuedNow()
@@ -120,6 +129,7 @@ export const useSessionStore = defineStore('session', () => {
     signIn,
     refresh,
     restore,
+    currentToken,
     signOut,
   }
 })
