@@ -45,10 +45,16 @@ function main(): void {
     console.warn(`${signal}: finishing open requests, then closing the database.`)
     daily.stop()
     server.close(() => {
-      void ctx.mailer.close().catch(() => {})
-      database.sqlite.pragma('wal_checkpoint(TRUNCATE)')
-      database.sqlite.close()
-      process.exit(0)
+      // Mail started by the last requests (a sign-off's close-out report and message) still reads and
+      // writes the database: it finishes, or is logged as failed for the retry, before the database closes.
+      void ctx.mailer
+        .close()
+        .catch((error: unknown) => console.error('mail at shutdown:', error))
+        .finally(() => {
+          database.sqlite.pragma('wal_checkpoint(TRUNCATE)')
+          database.sqlite.close()
+          process.exit(0)
+        })
     })
     setTimeout(() => process.exit(1), 10_000).unref()
   }
