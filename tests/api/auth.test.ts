@@ -93,7 +93,7 @@ describe('sign-in', () => {
       expect(res.status).toBe(429)
       expect(res.headers['retry-after']).toBeDefined()
     } finally {
-      limited.close()
+      await limited.close()
     }
   })
 

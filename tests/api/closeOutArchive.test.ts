@@ -23,8 +23,7 @@ const { endpoint: s3Endpoint } = useFakeS3(bucket, 'lightseam-close-out-')
 let apps: TestApp[] = []
 afterEach(async () => {
   for (const t of apps) {
-    await t.ctx.mailer.close()
-    t.close()
+    await t.close()
   }
   apps = []
 })

@@ -17,8 +17,7 @@ function app(overrides: Parameters<typeof makeTestApp>[0] = {}): TestApp {
 }
 afterEach(async () => {
   for (const t of apps) {
-    await t.ctx.mailer.close()
-    t.close()
+    await t.close()
   }
   apps = []
 })

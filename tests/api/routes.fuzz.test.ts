@@ -558,8 +558,7 @@ beforeAll(async () => {
 
 afterAll(async () => {
   await t?.ctx.mailer.idle()
-  await t?.ctx.mailer.close()
-  t?.close()
+  await t?.close()
   const byStatus = [...statuses.entries()].sort(([a], [b]) => a - b).map(([s, n]) => `${s}×${n}`)
   console.warn(
     `routes fuzz: ${tally.requests} requests to ${writeKeys.length} write routes, ${tally.refusals} refused ` +

@@ -176,7 +176,7 @@ describe('push: every mutation applies', () => {
     try {
       expect(batched).toEqual(await run(other, false))
     } finally {
-      other.close()
+      await other.close()
     }
     const flags = batched.splices.map((s) => JSON.parse(s.flags) as string[])
     expect(flags[4]).toContain('fiber_reused')

@@ -67,8 +67,8 @@ beforeAll(async () => {
   current = fingerprint(t.database)
 })
 
-afterAll(() => {
-  t?.close()
+afterAll(async () => {
+  await t?.close()
   console.warn(
     `uploads fuzz: ${tally.requests} uploads, ${tally.refusals} refused (nothing written), ${tally.accepted} accepted; ` +
       `seed ${seed}, ${runs} runs (LIGHTSEAM_FUZZ_SEED, LIGHTSEAM_FUZZ_RUNS)`,

@@ -18,7 +18,8 @@ export interface TestApp {
   config: Config
   /** A signed-in demo user's bearer header value. */
   tokenFor: (who: DemoWho) => Promise<string>
-  close: () => void
+  /** Waits for the mail the requests started (sign-off messages run after the answer), then removes it all. */
+  close: () => Promise<void>
 }
 
 /** The demo users by key: one per role in the first crew (and office, inspector), `…2` in the second crew. */
@@ -65,7 +66,8 @@ export function makeTestApp(
       tokens.set(who, header)
       return header
     },
-    close() {
+    async close() {
+      await ctx.mailer.close()
       database.sqlite.close()
       rmSync(dataDir, { recursive: true, force: true })
     },
