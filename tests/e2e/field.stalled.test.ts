@@ -1,5 +1,5 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { launchBrowser, type Browser } from './support/browser'
+import { launchBrowser, signInAt, type Browser } from './support/browser'
 import { startServer, type RunningServer } from './support/server'
 import { startStallingProxy, type StallingProxy } from './support/stallingProxy'
 
@@ -25,12 +25,8 @@ describe('the app opened on a network that connects but never answers (Chromium,
 
   it('when the session refresh hangs, then the remembered splicer still gets their closures within seconds', async () => {
     const page = await browser.context.newPage()
-    await page.goto(proxy.url)
-    await page.waitForFunction(() => document.documentElement.dataset.sw === 'registered')
+    await signInAt(page, proxy.url, splicer)
     await page.evaluate(async () => navigator.serviceWorker.ready)
-    await page.locator('input[data-testid=email]').fill(splicer.email)
-    await page.locator('input[data-testid=password]').fill(splicer.password)
-    await page.locator('[data-testid=sign-in]').click()
     const card = page.locator(`[data-testid=closure-card][data-closure="${closureLabel}"]`)
     await card.waitFor({ timeout: 30_000 })
     await expect
