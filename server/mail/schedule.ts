@@ -46,7 +46,7 @@ export function startDailyReport(
         const day = dayIn(ctx.config.mail.timezone, now())
         await sendProductionReports(ctx, day)
         await archiveMissingCloseOuts(ctx)
-        await retryFailedMail(ctx)
+        await retryFailedMail(ctx, now())
       })().catch((error) => console.error('daily production report:', error))
       return running.then(() => undefined)
     },

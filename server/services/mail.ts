@@ -205,12 +205,27 @@ export async function sendProductionReportNow(
   return { sent: state === 'sent', recipients: recipientsOf(ctx, ['office', 'foreman']).length }
 }
 
+/** The sign-off messages being made, per app and closure. */
+const notifying = new WeakMap<AppContext, Map<string, Promise<unknown>>>()
+
 /**
  * Stores the close-out PDF of the closure's current sign-off (once, see closeOutArchive.ts) and mails the
  * office that stored copy; once per sign-off. When the copy cannot be stored the message is logged as
  * failed without being sent, and `retryFailedMail` stores and sends it later. Never throws.
  */
-export async function notifySignedOff(ctx: AppContext, closureId: string): Promise<unknown> {
+export function notifySignedOff(ctx: AppContext, closureId: string): Promise<unknown> {
+  // The daily job may reach a sign-off whose message is still being made: it waits for that one instead
+  // of sending a second.
+  const running = notifying.get(ctx) ?? new Map<string, Promise<unknown>>()
+  notifying.set(ctx, running)
+  const pending = running.get(closureId)
+  if (pending) return pending
+  const job = sendSignedOff(ctx, closureId).finally(() => running.delete(closureId))
+  running.set(closureId, job)
+  return job
+}
+
+async function sendSignedOff(ctx: AppContext, closureId: string): Promise<unknown> {
   const row = ctx.database.sqlite
     .prepare("SELECT label, signed_off_at AS at FROM closures WHERE id = ? AND state = 'signed_off'")
     .get(closureId) as { label: string; at: string } | undefined
@@ -268,12 +283,38 @@ export function afterPush(
   }
 }
 
-/** Retries sign-off messages that failed before, storing their close-out report first (daily schedule). */
-export async function retryFailedMail(ctx: AppContext) {
-  const failed = ctx.database.sqlite
+// How far back the daily job looks for a sign-off whose message was never even attempted.
+const owedSignOffDays = 7
+
+/**
+ * Sends the sign-off messages still owed, storing their close-out report first (daily schedule): those that
+ * failed before, and those of the last week's sign-offs with no message logged at all (the server stopped
+ * between committing the sign-off and sending its message). `now` is the clock.
+ */
+export async function retryFailedMail(ctx: AppContext, now: Date = new Date()) {
+  const sqlite = ctx.database.sqlite
+  const failed = sqlite
     .prepare("SELECT key FROM mail_log WHERE kind = 'signed_off' AND state = 'failed'")
-    .all() as { key: string }[]
-  for (const f of failed) await notifySignedOff(ctx, f.key.slice(0, 36))
+    .pluck()
+    .all() as string[]
+  const unlogged = sqlite
+    .prepare(
+      `SELECT c.id, c.signed_off_at AS at FROM closures c
+        WHERE c.deleted = 0 AND c.state = 'signed_off' AND c.signed_off_at IS NOT NULL
+          AND NOT EXISTS (SELECT 1 FROM mail_log m
+                           WHERE m.kind = 'signed_off' AND m.key = c.id || ':' || c.signed_off_at)
+        ORDER BY c.signed_off_at`,
+    )
+    .all() as { id: string; at: string }[]
+  // signed_off_at is the device's time with its offset, so the window is judged on the instant; one ahead
+  // of the server's clock waits until it is past.
+  const until = now.getTime()
+  const since = until - owedSignOffDays * 86_400_000
+  const owed = unlogged
+    .filter((row) => Date.parse(row.at) >= since && Date.parse(row.at) <= until)
+    .map((row) => row.id)
+  for (const closureId of [...failed.map((key) => key.slice(0, 36)), ...owed])
+    await notifySignedOff(ctx, closureId)
 }
 
 const hashToken = (token: string) => createHash('sha256').update(token).digest('hex')

@@ -3,7 +3,9 @@ import request from 'supertest'
 import { v7 as uuidv7 } from 'uuid'
 import { afterEach, describe, expect, it } from 'vitest'
 import { startDailyReport } from '../../server/mail/schedule'
+import type { Actor } from '../../server/middleware/auth'
 import { inviteUser } from '../../server/services/mail'
+import { pushMutations } from '../../server/services/sync'
 import { demoUser, makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
 import { received } from './support/mail'
 import { pdfText } from './support/pdf'
@@ -176,6 +178,59 @@ describe('sign-off message', () => {
     expect(again.status).toBe(409)
     await pushOk(t, 'foreman', newClientId(), [mutation(1, 'signOffClosure', { closureId: id })])
     expect(await received(t)).toHaveLength(1)
+  })
+
+  it('when the server stopped between a sign-off and its message, then the daily job sends it, once', async () => {
+    const t = app()
+    const id = closureId(t, 'PED-03')
+    const foreman = t.database.sqlite
+      .prepare('SELECT id, email, name, role, crew_id AS crewId FROM users WHERE email = ?')
+      .get(demoUser('foreman').email) as Actor
+    // The batch commits as a push does, and nothing after it runs: the route's message never starts.
+    const answer = pushMutations(t.ctx, foreman, {
+      clientId: newClientId(),
+      schemaVersion: 1,
+      mutations: [mutation(1, 'signOffClosure', { closureId: id })],
+    })
+    expect(answer.results[0]!.status).toBe('applied')
+    await t.ctx.mailer.idle()
+    expect(await received(t)).toHaveLength(0)
+
+    // The mutation's clientTime (2025-06-11 08:15 +01:00) is the sign-off time; the job runs that evening.
+    const daily = startDailyReport(t.ctx, { now: () => new Date('2025-06-11T18:00:00Z'), paused: true })
+    try {
+      await daily.job.trigger()
+      await daily.lastRun()
+      await daily.job.trigger()
+      await daily.lastRun()
+    } finally {
+      daily.stop()
+    }
+    const signedOff = (await received(t)).filter((m) => m.subject === 'Signed off: PED-03 Sloe Hill')
+    expect(signedOff).toHaveLength(1)
+    expect(toOf(signedOff[0]!)).toBe(demoUser('office').email)
+    expect(signedOff[0]!.attachments[0]!.filename).toBe('close-out-PED-03-Sloe-Hill.pdf')
+  })
+
+  it('when a sign-off without a message is more than a week old, then the daily job leaves it be', async () => {
+    const t = app()
+    const signOffMails = async () =>
+      (await received(t)).filter((m) => m.subject?.startsWith('Signed off:')).map((m) => m.subject)
+    const runDailyAt = async (now: string) => {
+      const daily = startDailyReport(t.ctx, { now: () => new Date(now), paused: true })
+      try {
+        await daily.job.trigger()
+        await daily.lastRun()
+      } finally {
+        daily.stop()
+      }
+    }
+    // The demo's BLD-04 was signed off at 2025-06-10 16:40 with no message logged.
+    await runDailyAt('2025-06-18T18:00:00Z')
+    expect(await signOffMails()).toEqual([])
+    // Within the week it is owed one.
+    await runDailyAt('2025-06-12T18:00:00Z')
+    expect(await signOffMails()).toEqual(['Signed off: BLD-04 Old Maltings'])
   })
 
   it('when a re-applied change is not a sign-off, then no sign-off message goes out', async () => {
