@@ -2,6 +2,8 @@ import { readFileSync } from 'node:fs'
 import { join } from 'node:path'
 import { type Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { PNG } from 'pngjs'
+import { contrastRatio, parseRgb } from './support/a11y'
 import { artifactsDir, launchBrowser, type Browser, signInAt } from './support/browser'
 import { startServer, type RunningServer } from './support/server'
 
@@ -226,4 +228,41 @@ describe('the office sets a project up (Chromium, desktop)', () => {
       }
     }
   }, 600_000)
+
+  it('when a filled button is hovered or focused from the keyboard, then its words keep 4.5:1 against it', async () => {
+    for (const colorScheme of ['light', 'dark'] as const) {
+      const own = await launchBrowser({ viewport: { width: 1280, height: 800 }, colorScheme })
+      try {
+        const page = await own.context.newPage()
+        await page.goto(`${server.url}/sign-in`)
+        const button = page.locator('[data-testid=sign-in]')
+        await button.waitFor()
+        const label = parseRgb(await button.evaluate((el) => getComputedStyle(el).color))
+        // A point of the button's left padding, clear of the label and of the rounded corners, once
+        // Quasar's tint has faded in (0.4 s).
+        const fill = async () => {
+          await page.waitForTimeout(800)
+          const shot = PNG.sync.read(await button.screenshot())
+          const at = (Math.floor(shot.height / 2) * shot.width + 8) * 4
+          return [shot.data[at]!, shot.data[at + 1]!, shot.data[at + 2]!] as const
+        }
+        const resting = await fill()
+        await button.hover()
+        const hovered = await fill()
+        await page.mouse.move(0, 0)
+        await button.focus()
+        const focused = await fill()
+        const ratios = [resting, hovered, focused].map((c) => Number(contrastRatio(c, label).toFixed(2)))
+        expect(
+          ratios.every((r) => r >= 4.5),
+          `${colorScheme}: resting, hovered, focused ${ratios}`,
+        ).toBe(true)
+        // The tint is there at all: hovering and focusing change the fill.
+        expect(hovered).not.toEqual(resting)
+        expect(focused).not.toEqual(resting)
+      } finally {
+        await own.close()
+      }
+    }
+  }, 120_000)
 })

@@ -57,3 +57,27 @@ export async function expectNoSeriousA11y(page: Page, label: string): Promise<vo
   if (violations.length > 0)
     throw new Error(`Accessibility problems on ${label}:\n${describeViolations(violations)}`)
 }
+
+type Rgb = readonly [number, number, number]
+
+/** Relative luminance of an sRGB colour (WCAG 2.2, "relative luminance"). */
+function luminance([r, g, b]: Rgb): number {
+  const linear = (v: number) => {
+    const c = v / 255
+    return c <= 0.04045 ? c / 12.92 : ((c + 0.055) / 1.055) ** 2.4
+  }
+  return 0.2126 * linear(r) + 0.7152 * linear(g) + 0.0722 * linear(b)
+}
+
+/** The contrast ratio of two colours, 1 to 21 (WCAG 2.2, "contrast ratio"; AA asks 4.5 for body text). */
+export function contrastRatio(a: Rgb, b: Rgb): number {
+  const [light, dark] = [luminance(a), luminance(b)].sort((x, y) => y - x) as [number, number]
+  return (light + 0.05) / (dark + 0.05)
+}
+
+/** An `rgb(…)`/`rgba(…)` computed colour as [r, g, b]. */
+export function parseRgb(css: string): Rgb {
+  const [r, g, b] = (css.match(/\d+(\.\d+)?/g) ?? []).map(Number)
+  if (r === undefined || g === undefined || b === undefined) throw new Error(`not an rgb colour: ${css}`)
+  return [r, g, b]
+}
