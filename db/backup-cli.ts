@@ -8,7 +8,9 @@ const source = process.env.LIGHTSEAM_DB ?? `${process.env.LIGHTSEAM_DATA_DIR ?? 
 const dest = process.argv[2] ?? backupName(`${process.env.LIGHTSEAM_DATA_DIR ?? 'data'}/backups`)
 try {
   const result = await backupDatabase(source, dest)
-  console.warn(`${source} → ${result.file}: ${result.pages} pages in ${result.ms.toFixed(0)} ms, integrity ok.`)
+  console.warn(
+    `${source} → ${result.file}: ${result.pages} pages in ${result.ms.toFixed(0)} ms, integrity ok.`,
+  )
 } catch (error) {
   console.error(`Backup failed: ${(error as Error).message}`)
   process.exit(1)

@@ -11,7 +11,8 @@ export const demoOtdrFiles = {
   fromHandhole: 'TR-864-A ribbon 2 from HH-02.csv',
 } as const
 
-const header = 'cable,fiber,from_end,wavelength_nm,fiber_length_m,end_to_end_db,distance_m,loss_db,reflectance_db,kind'
+const header =
+  'cable,fiber,from_end,wavelength_nm,fiber_length_m,end_to_end_db,distance_m,loss_db,reflectance_db,kind'
 // The vault splice is 1240 m from the hub; TR-864-B runs on 396 m to HH-02 (path 1636 m, see db/seed.ts).
 const pathM = 1636
 const spliceM = 1240
@@ -59,7 +60,8 @@ export function demoOtdrCsv(estimates: Map<number, number>): { name: string; tex
       if (shot.ab !== null) hub.push(row('A', e2eAb, `${spliceM + ((fiber % 3) - 1) * 2},${shot.ab},,splice`))
       hub.push(row('A', e2eAb, `${pathM},,-14.2,end`))
       if (fiber === 22 && wavelength === 1550) handhole.push(row('B', e2eBa, `${pathM - bendM},0.2,,bend`))
-      if (shot.ba !== null) handhole.push(row('B', e2eBa, `${pathM - spliceM + (fiber % 2)},${shot.ba},,splice`))
+      if (shot.ba !== null)
+        handhole.push(row('B', e2eBa, `${pathM - spliceM + (fiber % 2)},${shot.ba},,splice`))
       handhole.push(row('B', e2eBa, `${pathM},,-14.6,end`))
     }
   }
@@ -85,8 +87,17 @@ export function seedDemoOtdr(
           `SELECT s.fiber_a AS fiber, s.loss_db AS lossDb FROM splices s JOIN cables k ON k.id = s.cable_a_id
             WHERE k.project_id = ? AND k.label = ? AND s.is_current = 1 AND s.deleted = 0 AND s.fiber_a BETWEEN ? AND ?`,
         )
-        .all(project.id, demoOtdrCable, demoOtdrFibers.first, demoOtdrFibers.last) as { fiber: number; lossDb: number }[]
+        .all(project.id, demoOtdrCable, demoOtdrFibers.first, demoOtdrFibers.last) as {
+        fiber: number
+        lossDb: number
+      }[]
     ).map((r) => [r.fiber, r.lossDb]),
   )
-  importOtdrIntoProject(sqlite, input.officeUserId, project, { files: demoOtdrCsv(estimates) }, { at: input.at, newId: input.newId })
+  importOtdrIntoProject(
+    sqlite,
+    input.officeUserId,
+    project,
+    { files: demoOtdrCsv(estimates) },
+    { at: input.at, newId: input.newId },
+  )
 }

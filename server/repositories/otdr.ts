@@ -1,5 +1,11 @@
 import type { Sqlite } from '#db/client'
-import { cableStarts, pathGraph, type PathClosure, type PathGraph, type PathJoin } from '#shared/domain/fiberPath'
+import {
+  cableStarts,
+  pathGraph,
+  type PathClosure,
+  type PathGraph,
+  type PathJoin,
+} from '#shared/domain/fiberPath'
 
 export interface SpliceFacts {
   id: string
@@ -26,7 +32,9 @@ export interface ProjectPlant {
 /** Loads everything path tracing and OTDR matching need for one project, in four reads. */
 export function loadProjectPlant(sqlite: Sqlite, projectId: string): ProjectPlant {
   const cables = sqlite
-    .prepare('SELECT id, label, length_m AS lengthM, fiber_count AS fiberCount FROM cables WHERE project_id = ? AND deleted = 0')
+    .prepare(
+      'SELECT id, label, length_m AS lengthM, fiber_count AS fiberCount FROM cables WHERE project_id = ? AND deleted = 0',
+    )
     .all(projectId) as { id: string; label: string; lengthM: number; fiberCount: number }[]
   const closures = sqlite
     .prepare(
@@ -58,7 +66,11 @@ export function loadProjectPlant(sqlite: Sqlite, projectId: string): ProjectPlan
   // Where cables start and end is read from the plan as well as the splices, so a closure not yet worked still places them.
   const layout = [
     ...joins,
-    ...planned.map((p) => ({ closureId: p.closureId, a: { cableId: p.cableAId, fiber: 0 }, b: { cableId: p.cableBId, fiber: 0 } })),
+    ...planned.map((p) => ({
+      closureId: p.closureId,
+      a: { cableId: p.cableAId, fiber: 0 },
+      b: { cableId: p.cableBId, fiber: 0 },
+    })),
   ]
   const placed = cableStarts(cables, closures, layout)
   const closureById = new Map(closures.map((c) => [c.id, c]))
@@ -76,6 +88,8 @@ export function loadProjectPlant(sqlite: Sqlite, projectId: string): ProjectPlan
     cableByLabel: new Map(cables.map((c) => [c.label.trim().toLowerCase(), c])),
     splices: new Map(splices.map((s) => [s.id, s])),
     closuresOfCable: (cableId) =>
-      [...(touching.get(cableId) ?? [])].map((id) => closureById.get(id)).filter((c): c is PathClosure => !!c),
+      [...(touching.get(cableId) ?? [])]
+        .map((id) => closureById.get(id))
+        .filter((c): c is PathClosure => !!c),
   }
 }

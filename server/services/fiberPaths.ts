@@ -19,7 +19,9 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
   const path = traceFiberPath(plant.graph, { cableId, fiber })
   const settings = readBudgetSettings(sqlite, project.id)
   const connectors = [path.aEnd, path.bEnd].filter((end) => end.kind === 'terminal').length
-  const results = sqlite.prepare('SELECT ab_db AS ab, ba_db AS ba FROM otdr_splice_results WHERE splice_id = ? AND wavelength_nm = ?')
+  const results = sqlite.prepare(
+    'SELECT ab_db AS ab, ba_db AS ba FROM otdr_splice_results WHERE splice_id = ? AND wavelength_nm = ?',
+  )
   const wavelengths = project.limits.perWavelength.map((l) => l.wavelength)
   const first = path.segments[0]
   const endToEnd = sqlite.prepare(
@@ -39,7 +41,8 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
       const r = results.get(step.joinId, wavelengthNm) as { ab: number | null; ba: number | null } | undefined
       const m = r ? spliceMeasurement(r.ab, r.ba) : null
       const estimate = plant.splices.get(step.joinId)?.lossDb ?? null
-      if (m?.kind === 'average') return { spliceId: step.joinId, lossDb: m.lossDb, source: 'measured' as const }
+      if (m?.kind === 'average')
+        return { spliceId: step.joinId, lossDb: m.lossDb, source: 'measured' as const }
       if (estimate !== null) return { spliceId: step.joinId, lossDb: estimate, source: 'estimated' as const }
       return { spliceId: step.joinId, lossDb: allowances.spliceLossDb, source: 'allowance' as const }
     })
@@ -54,9 +57,16 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
       marginDb: allowances.marginDb,
     }).totalDb
     const expectedDb =
-      lengthKm * allowances.attenuationDbPerKm + splices.reduce((n, s) => n + s.lossDb, 0) + connectors * allowances.connectorPairLossDb
+      lengthKm * allowances.attenuationDbPerKm +
+      splices.reduce((n, s) => n + s.lossDb, 0) +
+      connectors * allowances.connectorPairLossDb
     const margin = budgetMargin({ budgetDb: allowed, linkLossDb: expectedDb })
-    const traces = first ? (endToEnd.all(project.id, first.cableId, first.fiber, wavelengthNm) as { direction: string; db: number }[]) : []
+    const traces = first
+      ? (endToEnd.all(project.id, first.cableId, first.fiber, wavelengthNm) as {
+          direction: string
+          db: number
+        }[])
+      : []
     const ab = traces.find((t) => t.direction === 'a_to_b')?.db
     const ba = traces.find((t) => t.direction === 'b_to_a')?.db
     const measuredDb = ab !== undefined && ba !== undefined ? (ab + ba) / 2 : (ab ?? ba ?? null)
@@ -80,7 +90,11 @@ export function fiberPath(ctx: AppContext, actor: Actor, projectId: unknown, que
     complete: path.aEnd.kind === 'terminal' && path.bEnd.kind === 'terminal',
     connectorPairs: connectors,
     segments: path.segments.map((s) => ({ ...s, cable: plant.cableLabels.get(s.cableId) ?? '' })),
-    splices: path.joins.map((j) => ({ ...j, closure: plant.graph.closures.get(j.closureId)?.label ?? '', estimateDb: plant.splices.get(j.joinId)?.lossDb ?? null })),
+    splices: path.joins.map((j) => ({
+      ...j,
+      closure: plant.graph.closures.get(j.closureId)?.label ?? '',
+      estimateDb: plant.splices.get(j.joinId)?.lossDb ?? null,
+    })),
     budgets,
   }
 }

@@ -25,30 +25,63 @@ export function readOtdrCsv(
   const problems: OtdrRowProblem[] = []
   let records: string[][]
   try {
-    records = parseCsv(text, { bom: true, skip_empty_lines: true, relax_column_count: true, trim: true }) as string[][]
+    records = parseCsv(text, {
+      bom: true,
+      skip_empty_lines: true,
+      relax_column_count: true,
+      trim: true,
+    }) as string[][]
   } catch (error) {
     return {
       rows: [],
-      problems: [{ file: fileName, row: csvErrorLine(error), field: null, message: `The file is not readable CSV: ${(error as Error).message}` }],
+      problems: [
+        {
+          file: fileName,
+          row: csvErrorLine(error),
+          field: null,
+          message: `The file is not readable CSV: ${(error as Error).message}`,
+        },
+      ],
     }
   }
   const [header, ...body] = records
   const expected = otdrCsvColumns.join(',')
   if (!header || header.map((h) => h.toLowerCase()).join(',') !== expected) {
-    return { rows: [], problems: [{ file: fileName, row: 1, field: 'header', message: `The first line must be the column names: ${expected}` }] }
+    return {
+      rows: [],
+      problems: [
+        {
+          file: fileName,
+          row: 1,
+          field: 'header',
+          message: `The first line must be the column names: ${expected}`,
+        },
+      ],
+    }
   }
-  if (body.length === 0) problems.push({ file: fileName, row: 1, field: null, message: 'The file has no rows after the header.' })
+  if (body.length === 0)
+    problems.push({ file: fileName, row: 1, field: null, message: 'The file has no rows after the header.' })
   const rows: CsvRowRead[] = []
   body.forEach((cells, i) => {
     const row = i + 2
     if (cells.length !== otdrCsvColumns.length) {
-      problems.push({ file: fileName, row, field: null, message: `Expected ${otdrCsvColumns.length} cells, found ${cells.length}.` })
+      problems.push({
+        file: fileName,
+        row,
+        field: null,
+        message: `Expected ${otdrCsvColumns.length} cells, found ${cells.length}.`,
+      })
       return
     }
     const parsed = otdrCsvRowSchema.safeParse(Object.fromEntries(otdrCsvColumns.map((c, k) => [c, cells[k]])))
     if (!parsed.success) {
       for (const issue of parsed.error.issues)
-        problems.push({ file: fileName, row, field: issue.path.map(String).join('.') || null, message: issue.message })
+        problems.push({
+          file: fileName,
+          row,
+          field: issue.path.map(String).join('.') || null,
+          message: issue.message,
+        })
       return
     }
     rows.push({ row, value: parsed.data })

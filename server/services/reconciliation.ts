@@ -30,14 +30,20 @@ const spliceSql = `SELECT s.id, s.closure_id AS closureId, c.label AS closureLab
 /** Estimate against measurement per splice, with flags and the wavelengths still untested, for the given splices. */
 function view(ctx: AppContext, projectId: string, rows: Row[], unmatchedWhere: { sql: string; arg: string }) {
   const { sqlite } = ctx.database
-  const project = sqlite.prepare('SELECT limits, disagreement_db AS d FROM projects WHERE id = ?').get(projectId) as { limits: string; d: number }
-  const limits = JSON.parse(project.limits) as { perWavelength: { wavelength: number; contractTargetDb: number; standardMaxDb: number }[] }
+  const project = sqlite
+    .prepare('SELECT limits, disagreement_db AS d FROM projects WHERE id = ?')
+    .get(projectId) as { limits: string; d: number }
+  const limits = JSON.parse(project.limits) as {
+    perWavelength: { wavelength: number; contractTargetDb: number; standardMaxDb: number }[]
+  }
   const wavelengths = limits.perWavelength.map((l) => l.wavelength)
   const results = sqlite.prepare(
     'SELECT wavelength_nm AS wavelengthNm, ab_db AS abDb, ba_db AS baDb FROM otdr_splice_results WHERE splice_id = ? ORDER BY wavelength_nm',
   )
   const splices = rows.map((row) => {
-    const measured = (results.all(row.id) as { wavelengthNm: number; abDb: number | null; baDb: number | null }[]).map((r) => {
+    const measured = (
+      results.all(row.id) as { wavelengthNm: number; abDb: number | null; baDb: number | null }[]
+    ).map((r) => {
       const result = spliceMeasurement(r.abDb, r.baDb)
       const limit = limits.perWavelength.find((l) => l.wavelength === r.wavelengthNm)
       return {
@@ -49,7 +55,11 @@ function view(ctx: AppContext, projectId: string, rows: Row[], unmatchedWhere: {
       }
     })
     const { crewId: _crew, state: _state, ...facts } = row
-    return { ...facts, measured, untested: wavelengths.filter((w) => !measured.some((m) => m.wavelengthNm === w)) }
+    return {
+      ...facts,
+      measured,
+      untested: wavelengths.filter((w) => !measured.some((m) => m.wavelengthNm === w)),
+    }
   })
   const unmatched = sqlite
     .prepare(
@@ -78,8 +88,16 @@ function view(ctx: AppContext, projectId: string, rows: Row[], unmatchedWhere: {
 /** The reconciliation of one closure's splices. */
 export function closureReconciliation(ctx: AppContext, actor: Actor, closureId: unknown) {
   const closure = getClosure(ctx, actor, closureId)
-  const rows = ctx.database.sqlite.prepare(`${spliceSql} AND s.closure_id = ? ORDER BY t.number, s.slot`).all(closure.id) as Row[]
-  return { closure: { id: closure.id, label: closure.label }, ...view(ctx, closure.projectId, rows, { sql: '(e.after_closure_id = @id OR e.before_closure_id = @id)', arg: closure.id }) }
+  const rows = ctx.database.sqlite
+    .prepare(`${spliceSql} AND s.closure_id = ? ORDER BY t.number, s.slot`)
+    .all(closure.id) as Row[]
+  return {
+    closure: { id: closure.id, label: closure.label },
+    ...view(ctx, closure.projectId, rows, {
+      sql: '(e.after_closure_id = @id OR e.before_closure_id = @id)',
+      arg: closure.id,
+    }),
+  }
 }
 
 /** The reconciliation of every splice on one cable, narrowed to the closures the actor may see. */
@@ -88,8 +106,13 @@ export function cableReconciliation(ctx: AppContext, actor: Actor, cableId: unkn
   getProject(ctx, actor, cable.projectId)
   const rows = (
     ctx.database.sqlite
-      .prepare(`${spliceSql} AND (s.cable_a_id = @id OR s.cable_b_id = @id) ORDER BY c.route_position_m, t.number, s.slot`)
+      .prepare(
+        `${spliceSql} AND (s.cable_a_id = @id OR s.cable_b_id = @id) ORDER BY c.route_position_m, t.number, s.slot`,
+      )
       .all({ id: cable.id }) as Row[]
   ).filter((row) => canSeeClosure(actor, row))
-  return { cable: { id: cable.id, label: cable.label }, ...view(ctx, cable.projectId, rows, { sql: 'e.on_cable_id = @id', arg: cable.id }) }
+  return {
+    cable: { id: cable.id, label: cable.label },
+    ...view(ctx, cable.projectId, rows, { sql: 'e.on_cable_id = @id', arg: cable.id }),
+  }
 }

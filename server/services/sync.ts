@@ -355,7 +355,10 @@ export function reapplyRejected(
   actor: Actor,
   rejectedId: unknown,
   /** Called once the change has committed, with the mutation and its result (the route mails a sign-off here). */
-  onCommitted?: (mutation: { seq: number; name: string; args: unknown }, result: { seq: number; status: string }) => void,
+  onCommitted?: (
+    mutation: { seq: number; name: string; args: unknown },
+    result: { seq: number; status: string },
+  ) => void,
 ) {
   const id =
     typeof rejectedId === 'string' && /^[1-9][0-9]{0,15}$/.test(rejectedId) ? Number(rejectedId) : NaN

@@ -214,7 +214,12 @@ export function locateOnPath(
   path: FiberPath,
   atM: number,
   closuresOfCable: (cableId: string) => readonly PathClosure[],
-): { cableId: string | null; routePositionM: number | null; after: PathClosure | null; before: PathClosure | null } {
+): {
+  cableId: string | null
+  routePositionM: number | null
+  after: PathClosure | null
+  before: PathClosure | null
+} {
   const segment =
     path.segments.find((s) => atM >= s.startsAtM && atM <= s.startsAtM + s.lengthM) ??
     (atM < 0 ? path.segments[0] : path.segments[path.segments.length - 1])

@@ -1,4 +1,10 @@
-import { bEndToADistanceM, bidirectionalAverage, dbAbove, type BidirectionalResult, type Direction } from './loss'
+import {
+  bEndToADistanceM,
+  bidirectionalAverage,
+  dbAbove,
+  type BidirectionalResult,
+  type Direction,
+} from './loss'
 import type { PathStep } from './fiberPath'
 
 /** What an OTDR's event table calls an event; `end` is the end of the fiber, never matched to a splice. */
@@ -39,7 +45,8 @@ export function matchEvents(
       const off = Math.abs(event.atM - join.atM)
       if (off <= toleranceM && (!best || off < Math.abs(event.atM - best.atM))) best = join
     }
-    if (best) return { kind: 'join', joinId: best.joinId, closureId: best.closureId, offsetM: event.atM - best.atM }
+    if (best)
+      return { kind: 'join', joinId: best.joinId, closureId: best.closureId, offsetM: event.atM - best.atM }
     if (
       event.kind === 'connector' &&
       (Math.abs(event.atM) <= toleranceM || Math.abs(event.atM - pathLengthM) <= toleranceM)
@@ -53,7 +60,8 @@ export function matchEvents(
     if (m.kind !== 'join') return
     const held = nearest.get(m.joinId)
     const heldMatch = held === undefined ? undefined : out[held]
-    if (heldMatch?.kind !== 'join' || Math.abs(m.offsetM) < Math.abs(heldMatch.offsetM)) nearest.set(m.joinId, i)
+    if (heldMatch?.kind !== 'join' || Math.abs(m.offsetM) < Math.abs(heldMatch.offsetM))
+      nearest.set(m.joinId, i)
   })
   return out.map((m, i) =>
     m.kind === 'join' && nearest.get(m.joinId) !== i

@@ -42,7 +42,11 @@ export const otdrCsvRowSchema = z
     if (hasEvent && row.kind === null)
       ctx.addIssue({ code: 'custom', path: ['kind'], message: 'An event needs its kind.' })
     if (hasEvent && row.kind !== 'end' && row.kind !== null && row.loss_db === null)
-      ctx.addIssue({ code: 'custom', path: ['loss_db'], message: 'A splice, connector or bend needs its loss.' })
+      ctx.addIssue({
+        code: 'custom',
+        path: ['loss_db'],
+        message: 'A splice, connector or bend needs its loss.',
+      })
   })
 export type OtdrCsvRow = z.infer<typeof otdrCsvRowSchema>
 
@@ -98,7 +102,11 @@ export const lossBudgetSettingsSchema = z.strictObject({
       const seen = new Set<number>()
       rows.forEach((row, i) => {
         if (seen.has(row.wavelength))
-          ctx.addIssue({ code: 'custom', path: [i, 'wavelength'], message: `${row.wavelength} nm is listed twice.` })
+          ctx.addIssue({
+            code: 'custom',
+            path: [i, 'wavelength'],
+            message: `${row.wavelength} nm is listed twice.`,
+          })
         seen.add(row.wavelength)
       })
     }),
@@ -214,13 +222,25 @@ export const fiberPathSchema = z.object({
     }),
   ),
   splices: z.array(
-    z.object({ joinId: z.string(), closureId: z.string(), closure: z.string(), atM: z.number(), estimateDb: z.number().nullable() }),
+    z.object({
+      joinId: z.string(),
+      closureId: z.string(),
+      closure: z.string(),
+      atM: z.number(),
+      estimateDb: z.number().nullable(),
+    }),
   ),
   budgets: z.array(
     z.object({
       wavelengthNm: z.number(),
       allowances: effectiveAllowancesSchema,
-      splices: z.array(z.object({ spliceId: z.string(), lossDb: z.number(), source: z.enum(['measured', 'estimated', 'allowance']) })),
+      splices: z.array(
+        z.object({
+          spliceId: z.string(),
+          lossDb: z.number(),
+          source: z.enum(['measured', 'estimated', 'allowance']),
+        }),
+      ),
       allowedDb: z.number(),
       expectedDb: z.number(),
       marginDb: z.number(),

@@ -19,11 +19,21 @@ export const mutationArgsSchemas = {
   /** Removes the splicer's own splice before anyone has reviewed it (a draft logged by mistake). */
   deleteSplice: z.object({ id: idSchema }).strict(),
   addPhotoLink: z
-    .object({ id: idSchema, sha256: sha256Schema, entity: z.enum(['splice', 'tray', 'closure']), entityId: idSchema })
+    .object({
+      id: idSchema,
+      sha256: sha256Schema,
+      entity: z.enum(['splice', 'tray', 'closure']),
+      entityId: idSchema,
+    })
     .strict(),
   removePhotoLink: z.object({ id: idSchema }).strict(),
   addNote: z
-    .object({ id: idSchema, entity: z.enum(['closure', 'splice']), entityId: idSchema, body: noteSchema.min(1) })
+    .object({
+      id: idSchema,
+      entity: z.enum(['closure', 'splice']),
+      entityId: idSchema,
+      body: noteSchema.min(1),
+    })
     .strict(),
   setClosurePosition: z
     .object({

@@ -122,7 +122,10 @@ const recipes: Record<RouteKey, Recipe | 'public'> = {
   'PUT /api/crews/:crewId/day': write((i) => `/api/crews/${i.crewId}/day`, true),
   'GET /api/projects/:projectId/otdr/template': read((i) => `/api/projects/${i.projectId}/otdr/template`),
   'POST /api/projects/:projectId/otdr/imports': write((i) => `/api/projects/${i.projectId}/otdr/imports`),
-  'GET /api/closures/:closureId/reconciliation': read((i) => `/api/closures/${i.closureId}/reconciliation`, true),
+  'GET /api/closures/:closureId/reconciliation': read(
+    (i) => `/api/closures/${i.closureId}/reconciliation`,
+    true,
+  ),
   'GET /api/cables/:cableId/reconciliation': read((i) => `/api/cables/${i.cableId}/reconciliation`),
   'GET /api/projects/:projectId/fiber-path': read(
     (i) => `/api/projects/${i.projectId}/fiber-path?cableId=${i.cableId}&fiber=1`,

@@ -1,16 +1,7 @@
 import request from 'supertest'
 import { afterEach, describe, expect, it } from 'vitest'
 import { makeTestApp, tableCounts, type TestApp } from './support/app'
-import {
-  closureId,
-  mutation,
-  newClientId,
-  plannedSlot,
-  pullAll,
-  push,
-  pushOk,
-  userId,
-} from './support/sync'
+import { closureId, mutation, newClientId, plannedSlot, pullAll, push, pushOk, userId } from './support/sync'
 
 let t: TestApp
 afterEach(() => t?.close())

@@ -80,7 +80,10 @@ async function loadedByTheSplicer(distDir: string): Promise<{ files: string[]; g
         .filter((path) => path.endsWith('.js')),
     )
     const files = [...new Set(urls)].map((path) => path.replace(/^\//, ''))
-    return { files, gzipBytes: files.reduce((sum, f) => sum + gzipSync(readFileSync(join(distDir, f))).length, 0) }
+    return {
+      files,
+      gzipBytes: files.reduce((sum, f) => sum + gzipSync(readFileSync(join(distDir, f))).length, 0),
+    }
   } finally {
     await session.close()
   }

@@ -181,7 +181,9 @@ describe('demo seed', () => {
 
   it('has OTDR shots of TR-864-A fibers 13–24 through VLT-01, imported by the office, with every case the reconciliation shows', () => {
     const imports = all('SELECT file_name, trace_count, imported_by FROM otdr_imports ORDER BY file_name')
-    expect(imports.map((i) => i.file_name)).toEqual([demoOtdrFiles.fromHandhole, demoOtdrFiles.fromHub].sort())
+    expect(imports.map((i) => i.file_name)).toEqual(
+      [demoOtdrFiles.fromHandhole, demoOtdrFiles.fromHub].sort(),
+    )
     const office = one("SELECT id FROM users WHERE role = 'office'").id
     expect(imports.every((i) => i.imported_by === office)).toBe(true)
     const results = all(
@@ -189,7 +191,9 @@ describe('demo seed', () => {
          FROM otdr_splice_results r JOIN splices s ON s.id = r.splice_id JOIN closures c ON c.id = r.closure_id ORDER BY fiber, w`,
     )
     expect(new Set(results.map((r) => r.label))).toEqual(new Set(['VLT-01 Weir Road']))
-    expect(new Set(results.map((r) => r.fiber))).toEqual(new Set(Array.from({ length: 12 }, (_, i) => 13 + i)))
+    expect(new Set(results.map((r) => r.fiber))).toEqual(
+      new Set(Array.from({ length: 12 }, (_, i) => 13 + i)),
+    )
     // 12 fibers × 2 wavelengths, less fiber 24 at 1310 nm (not shot yet).
     expect(results).toHaveLength(23)
     const at = (fiber: number, w: number) => results.find((r) => r.fiber === fiber && r.w === w)
@@ -212,4 +216,3 @@ describe('demo seed', () => {
     }
   })
 })
-

@@ -112,13 +112,27 @@ describe('allowances a project budget uses (REFERENCE §2 defaults)', () => {
     expect(effectiveAllowances(noBudgetSettings, 850).attenuationDbPerKm.value).toBe(3.0)
     expect(effectiveAllowances(noBudgetSettings, 1300).attenuationDbPerKm.value).toBe(1.5)
     const at1550 = effectiveAllowances(noBudgetSettings, 1550)
-    expect([at1550.spliceLossDb.value, at1550.connectorPairLossDb.value, at1550.marginDb.value]).toEqual([0.3, 0.75, 0])
+    expect([at1550.spliceLossDb.value, at1550.connectorPairLossDb.value, at1550.marginDb.value]).toEqual([
+      0.3, 0.75, 0,
+    ])
   })
 
   it('when a project lists one wavelength, then that one uses its figure and the rest the project-wide one, else the default', () => {
-    const settings = { ...noBudgetSettings, attenuationDbPerKm: 0.4, attenuationByWavelength: [{ wavelength: 1550, dbPerKm: 0.25 }] }
-    expect(effectiveAllowances(settings, 1550).attenuationDbPerKm).toEqual({ value: 0.25, source: 'Set for this project' })
-    expect(effectiveAllowances(settings, 1310).attenuationDbPerKm).toEqual({ value: 0.4, source: 'Set for this project' })
-    expect(effectiveAllowances({ ...settings, attenuationDbPerKm: null }, 1310).attenuationDbPerKm.value).toBe(0.5)
+    const settings = {
+      ...noBudgetSettings,
+      attenuationDbPerKm: 0.4,
+      attenuationByWavelength: [{ wavelength: 1550, dbPerKm: 0.25 }],
+    }
+    expect(effectiveAllowances(settings, 1550).attenuationDbPerKm).toEqual({
+      value: 0.25,
+      source: 'Set for this project',
+    })
+    expect(effectiveAllowances(settings, 1310).attenuationDbPerKm).toEqual({
+      value: 0.4,
+      source: 'Set for this project',
+    })
+    expect(
+      effectiveAllowances({ ...settings, attenuationDbPerKm: null }, 1310).attenuationDbPerKm.value,
+    ).toBe(0.5)
   })
 })

@@ -28,7 +28,9 @@ describe('OTDR bidirectional pairing', () => {
 
   it('when the average passes the target or the maximum or the estimate differs, then the flags say so', () => {
     const limit = { contractTargetDb: 0.1, standardMaxDb: 0.3 } // REFERENCE.md §2, common practice target
-    expect(flagsForMeasurement(spliceMeasurement(0.2, 0.1), limit, 0.14, 0.15)).toEqual(['measured_over_target'])
+    expect(flagsForMeasurement(spliceMeasurement(0.2, 0.1), limit, 0.14, 0.15)).toEqual([
+      'measured_over_target',
+    ])
     expect(flagsForMeasurement(spliceMeasurement(0.4, 0.3), limit, 0.02, 0.15)).toEqual([
       'measured_over_maximum',
       'estimate_disagrees',
@@ -94,15 +96,24 @@ describe('a generated route with known answers', () => {
         sortedPositions.chain((positions) =>
           fc.record({
             positions: fc.constant(positions),
-            trueLoss: fc.array(fc.integer({ min: 0, max: 300 }).map((x) => x / 1000), {
+            trueLoss: fc.array(
+              fc.integer({ min: 0, max: 300 }).map((x) => x / 1000),
+              {
+                minLength: positions.length,
+                maxLength: positions.length,
+              },
+            ),
+            mfd: fc.array(
+              fc.integer({ min: 86, max: 96 }).map((x) => x / 10),
+              {
+                minLength: positions.length + 1,
+                maxLength: positions.length + 1,
+              },
+            ),
+            noise: fc.array(fc.integer({ min: -10, max: 10 }), {
               minLength: positions.length,
               maxLength: positions.length,
             }),
-            mfd: fc.array(fc.integer({ min: 86, max: 96 }).map((x) => x / 10), {
-              minLength: positions.length + 1,
-              maxLength: positions.length + 1,
-            }),
-            noise: fc.array(fc.integer({ min: -10, max: 10 }), { minLength: positions.length, maxLength: positions.length }),
           }),
         ),
         ({ positions, trueLoss, mfd, noise }) => {
@@ -111,17 +122,31 @@ describe('a generated route with known answers', () => {
           expect(path.joins.map((j) => j.atM)).toEqual(positions)
           const length = path.lengthM
           const round = (x: number) => Math.round(x * 1000) / 1000
-          const ab = positions.map((p, i) => ({ atM: p + noise[i]!, kind: 'splice' as const, loss: round(otdrReadingDb(trueLoss[i]!, mfd[i]!, mfd[i + 1]!)) }))
+          const ab = positions.map((p, i) => ({
+            atM: p + noise[i]!,
+            kind: 'splice' as const,
+            loss: round(otdrReadingDb(trueLoss[i]!, mfd[i]!, mfd[i + 1]!)),
+          }))
           // Seen from B, the light crosses each splice the other way and the distances count from B.
-          const ba = positions.map((p, i) => ({ d: length - p - noise[i]!, kind: 'splice' as const, loss: round(otdrReadingDb(trueLoss[i]!, mfd[i + 1]!, mfd[i]!)) }))
+          const ba = positions.map((p, i) => ({
+            d: length - p - noise[i]!,
+            kind: 'splice' as const,
+            loss: round(otdrReadingDb(trueLoss[i]!, mfd[i + 1]!, mfd[i]!)),
+          }))
           const mAb = matchEvents(ab, path.joins, length, 15)
-          const mBa = matchEvents(ba.map((e) => ({ atM: distanceFromAM('b_to_a', length, e.d), kind: e.kind })), path.joins, length, 15)
+          const mBa = matchEvents(
+            ba.map((e) => ({ atM: distanceFromAM('b_to_a', length, e.d), kind: e.kind })),
+            path.joins,
+            length,
+            15,
+          )
           positions.forEach((_, i) => {
             expect(mAb[i]).toMatchObject({ kind: 'join', joinId: `s${i}` })
             expect(mBa[i]).toMatchObject({ kind: 'join', joinId: `s${i}` })
             const result = spliceMeasurement(ab[i]!.loss, ba[i]!.loss)
             // Both readings are rounded to 0.001 dB, so the average is within 0.001 dB of the truth.
-            if (result.kind === 'average') expect(Math.abs(result.lossDb - trueLoss[i]!)).toBeLessThanOrEqual(0.001)
+            if (result.kind === 'average')
+              expect(Math.abs(result.lossDb - trueLoss[i]!)).toBeLessThanOrEqual(0.001)
             else expect(result.kind).toBe('both_negative')
           })
         },
@@ -135,11 +160,15 @@ describe('a generated route with known answers', () => {
       fc.property(sortedPositions, fc.integer({ min: 0, max: 1000 }), (positions, pick) => {
         const { graph } = route(positions, positions.map(() => 0).concat(0))
         const path = traceFiberPath(graph, { cableId: 'k0', fiber: 1 })
-        const gaps = [0, ...positions].map((p, i) => [p, positions[i] ?? path.lengthM] as const).filter(([a, b]) => b - a > 40)
+        const gaps = [0, ...positions]
+          .map((p, i) => [p, positions[i] ?? path.lengthM] as const)
+          .filter(([a, b]) => b - a > 40)
         fc.pre(gaps.length > 0)
         const [a, b] = gaps[pick % gaps.length]!
         const at = (a + b) / 2
-        expect(matchEvents([{ atM: at, kind: 'bend' }], path.joins, path.lengthM, 15)[0]).toEqual({ kind: 'unmatched' })
+        expect(matchEvents([{ atM: at, kind: 'bend' }], path.joins, path.lengthM, 15)[0]).toEqual({
+          kind: 'unmatched',
+        })
       }),
     )
   })
@@ -162,20 +191,33 @@ describe('fiber path tracing', () => {
 
   it('when joins close a loop, then tracing stops and reports it', () => {
     fc.assert(
-      fc.property(sortedPositions.filter((p) => p.length >= 2), (positions) => {
-        const r = route(positions, positions.map(() => 0).concat(0))
-        const back: PathJoin = { id: 'loop', closureId: 'c0', a: { cableId: `k${positions.length}`, fiber: 1 }, b: { cableId: 'k0', fiber: 1 } }
-        const graph = pathGraph(cableStarts(r.cables, r.closures, r.joins), r.closures, [...r.joins, back])
-        const path = traceFiberPath(graph, { cableId: 'k1', fiber: 1 })
-        expect([path.aEnd.kind, path.bEnd.kind]).toContain('loop')
-        expect(path.segments.length).toBe(positions.length + 1)
-      }),
+      fc.property(
+        sortedPositions.filter((p) => p.length >= 2),
+        (positions) => {
+          const r = route(positions, positions.map(() => 0).concat(0))
+          const back: PathJoin = {
+            id: 'loop',
+            closureId: 'c0',
+            a: { cableId: `k${positions.length}`, fiber: 1 },
+            b: { cableId: 'k0', fiber: 1 },
+          }
+          const graph = pathGraph(cableStarts(r.cables, r.closures, r.joins), r.closures, [...r.joins, back])
+          const path = traceFiberPath(graph, { cableId: 'k1', fiber: 1 })
+          expect([path.aEnd.kind, path.bEnd.kind]).toContain('loop')
+          expect(path.segments.length).toBe(positions.length + 1)
+        },
+      ),
     )
   })
 
   it('when a fiber is joined onward twice, then the path reports a branch with both joins', () => {
     const r = route([1000, 2000], [0, 0, 0])
-    const fork: PathJoin = { id: 'fork', closureId: 'c1', a: { cableId: 'k1', fiber: 1 }, b: { cableId: 'k2', fiber: 2 } }
+    const fork: PathJoin = {
+      id: 'fork',
+      closureId: 'c1',
+      a: { cableId: 'k1', fiber: 1 },
+      b: { cableId: 'k2', fiber: 2 },
+    }
     const graph = pathGraph(cableStarts(r.cables, r.closures, r.joins), r.closures, [...r.joins, fork])
     const path = traceFiberPath(graph, { cableId: 'k0', fiber: 1 })
     expect(path.bEnd).toEqual({ kind: 'branch', joinIds: ['s1', 'fork'] })
