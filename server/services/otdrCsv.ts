@@ -1,5 +1,4 @@
-import { parse as parseCsv } from 'csv-parse/sync'
-import { csvErrorLine } from './csv'
+import { csvErrorLine, readCsvRecords } from './csv'
 import { otdrCsvColumns, otdrCsvRowSchema, type OtdrCsvRow, type OtdrRowProblem } from '#shared/schemas/otdr'
 
 /** A downloadable starting point for the OTDR CSV: one trace from each end of one fiber at 1550 nm. */
@@ -25,12 +24,7 @@ export function readOtdrCsv(
   const problems: OtdrRowProblem[] = []
   let records: string[][]
   try {
-    records = parseCsv(text, {
-      bom: true,
-      skip_empty_lines: true,
-      relax_column_count: true,
-      trim: true,
-    }) as string[][]
+    records = readCsvRecords(text)
   } catch (error) {
     return {
       rows: [],

@@ -1,5 +1,4 @@
 import { and, asc, eq } from 'drizzle-orm'
-import { parse as parseCsv } from 'csv-parse/sync'
 import { v7 as uuidv7 } from 'uuid'
 import { z } from 'zod'
 import { writeTransaction } from '#db/client'
@@ -14,7 +13,7 @@ import {
 } from '#shared/schemas/index'
 import type { AppContext } from '../context'
 import { AppError, notFound } from '../errors'
-import { csvErrorLine } from './csv'
+import { csvErrorLine, readCsvRecords } from './csv'
 import type { Actor } from '../middleware/auth'
 import { recordEvent, recordFieldChanges } from '../repositories/audit'
 import { dbOf, recordsOf } from '../repositories/records'
@@ -181,12 +180,7 @@ export function uploadPlanCsv(ctx: AppContext, actor: Actor, closureId: unknown,
   const refs = closureRefs(ctx, closure)
   let records: string[][]
   try {
-    records = parseCsv(text, {
-      bom: true,
-      skip_empty_lines: true,
-      relax_column_count: true,
-      trim: true,
-    }) as string[][]
+    records = readCsvRecords(text)
   } catch (error) {
     const message = `The file is not readable CSV: ${(error as Error).message}`
     throw new AppError('invalid_csv', message, 400, [

@@ -5,11 +5,10 @@ import { CreateBucketCommand, GetObjectCommand, ListObjectsV2Command } from '@aw
 import request from 'supertest'
 import { afterEach, describe, expect, it } from 'vitest'
 import type { Config } from '../../server/config'
-import { startDailyReport } from '../../server/mail/schedule'
 import { createS3Client } from '../../server/storage/index'
 import { useFakeS3 } from './support/fakeS3'
 import { makeTestApp, tableCounts, type TestApp } from './support/app'
-import { received } from './support/mail'
+import { received, runDailyJob } from './support/mail'
 import { pdfText } from './support/pdf'
 import { closureId, mutation, newClientId, pushOk } from './support/sync'
 
@@ -268,13 +267,7 @@ describe.each(drivers)('stored close-out reports on the %s', (_name, driver) => 
     const served = await download(t, id)
     const [row] = rowsOf(t, id) as [ReportRow]
     expect(sha256(served.body)).toBe(row.sha256)
-    const daily = startDailyReport(t.ctx, { now: () => new Date('2025-06-11T18:00:00Z'), paused: true })
-    try {
-      await daily.job.trigger()
-      await daily.lastRun()
-    } finally {
-      daily.stop()
-    }
+    await runDailyJob(t, '2025-06-11T18:00:00Z')
     const mails = (await received(t)).filter((m) => m.subject === 'Signed off: PED-03 Sloe Hill')
     expect(mails).toHaveLength(1)
     expect(sha256(mails[0]!.attachments[0]!.content)).toBe(row.sha256)

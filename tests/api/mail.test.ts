@@ -7,7 +7,7 @@ import type { Actor } from '../../server/middleware/auth'
 import { inviteUser } from '../../server/services/mail'
 import { pushMutations } from '../../server/services/sync'
 import { demoUser, makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
-import { received } from './support/mail'
+import { received, runDailyJob } from './support/mail'
 import { pdfText } from './support/pdf'
 import { closureId, mutation, newClientId, pushOk } from './support/sync'
 
@@ -197,15 +197,7 @@ describe('sign-off message', () => {
     expect(await received(t)).toHaveLength(0)
 
     // The mutation's clientTime (2025-06-11 08:15 +01:00) is the sign-off time; the job runs that evening.
-    const daily = startDailyReport(t.ctx, { now: () => new Date('2025-06-11T18:00:00Z'), paused: true })
-    try {
-      await daily.job.trigger()
-      await daily.lastRun()
-      await daily.job.trigger()
-      await daily.lastRun()
-    } finally {
-      daily.stop()
-    }
+    await runDailyJob(t, '2025-06-11T18:00:00Z', 2)
     const signedOff = (await received(t)).filter((m) => m.subject === 'Signed off: PED-03 Sloe Hill')
     expect(signedOff).toHaveLength(1)
     expect(toOf(signedOff[0]!)).toBe(demoUser('office').email)
@@ -216,20 +208,11 @@ describe('sign-off message', () => {
     const t = app()
     const signOffMails = async () =>
       (await received(t)).filter((m) => m.subject?.startsWith('Signed off:')).map((m) => m.subject)
-    const runDailyAt = async (now: string) => {
-      const daily = startDailyReport(t.ctx, { now: () => new Date(now), paused: true })
-      try {
-        await daily.job.trigger()
-        await daily.lastRun()
-      } finally {
-        daily.stop()
-      }
-    }
     // The demo's BLD-04 was signed off at 2025-06-10 16:40 with no message logged.
-    await runDailyAt('2025-06-18T18:00:00Z')
+    await runDailyJob(t, '2025-06-18T18:00:00Z')
     expect(await signOffMails()).toEqual([])
     // Within the week it is owed one.
-    await runDailyAt('2025-06-12T18:00:00Z')
+    await runDailyJob(t, '2025-06-12T18:00:00Z')
     expect(await signOffMails()).toEqual(['Signed off: BLD-04 Old Maltings'])
   })
 
