@@ -4,7 +4,7 @@ import { v7 as uuidv7 } from 'uuid'
 import { afterEach, describe, expect, it } from 'vitest'
 import { startDailyReport } from '../../server/mail/schedule'
 import type { Actor } from '../../server/middleware/auth'
-import { inviteUser } from '../../server/services/mail'
+import { inviteUser, notifySignedOff } from '../../server/services/mail'
 import { pushMutations } from '../../server/services/sync'
 import { demoUser, makeTestApp, tableCounts, type DemoWho, type TestApp } from './support/app'
 import { received, runDailyJob } from './support/mail'
@@ -202,6 +202,23 @@ describe('sign-off message', () => {
     expect(signedOff).toHaveLength(1)
     expect(toOf(signedOff[0]!)).toBe(demoUser('office').email)
     expect(signedOff[0]!.attachments[0]!.filename).toBe('close-out-PED-03-Sloe-Hill.pdf')
+  })
+
+  it('when the daily job reaches a sign-off whose message is still being made, then one message goes out', async () => {
+    const t = app()
+    const id = closureId(t, 'PED-03')
+    const foreman = t.database.sqlite
+      .prepare('SELECT id, email, name, role, crew_id AS crewId FROM users WHERE email = ?')
+      .get(demoUser('foreman').email) as Actor
+    pushMutations(t.ctx, foreman, {
+      clientId: newClientId(),
+      schemaVersion: 1,
+      mutations: [mutation(1, 'signOffClosure', { closureId: id })],
+    })
+    // The route's message and the retry, both started before either has logged anything.
+    await Promise.all([notifySignedOff(t.ctx, id), notifySignedOff(t.ctx, id)])
+    const signedOff = (await received(t)).filter((m) => m.subject === 'Signed off: PED-03 Sloe Hill')
+    expect(signedOff).toHaveLength(1)
   })
 
   it('when a sign-off without a message is more than a week old, then the daily job leaves it be', async () => {
