@@ -72,7 +72,26 @@ export function dbOf(conn: Conn): Db {
   return db
 }
 
-const seqStatements = new WeakMap<Sqlite, BetterSqlite3.Statement<[], { value: number }>>()
+// The change sequence's three statements, prepared once per connection: every push batch reads and writes it.
+interface SeqStatements {
+  next: BetterSqlite3.Statement<[], { value: number }>
+  current: BetterSqlite3.Statement<[], { value: number }>
+  set: BetterSqlite3.Statement<[number]>
+}
+const seqStatementCache = new WeakMap<Sqlite, SeqStatements>()
+
+function seqStatements(sqlite: Sqlite): SeqStatements {
+  let st = seqStatementCache.get(sqlite)
+  if (!st) {
+    st = {
+      next: sqlite.prepare('UPDATE change_seq SET value = value + 1 WHERE id = 1 RETURNING value'),
+      current: sqlite.prepare('SELECT value FROM change_seq WHERE id = 1'),
+      set: sqlite.prepare('UPDATE change_seq SET value = ? WHERE id = 1'),
+    }
+    seqStatementCache.set(sqlite, st)
+  }
+  return st
+}
 
 // A push batch run without savepoints counts its change sequence values here and writes the last one once
 // (holdServerSeq), instead of one UPDATE … RETURNING for every mutation.
@@ -88,14 +107,7 @@ export function nextServerSeq(conn: Conn): number {
     held.value += 1
     return held.value
   }
-  let stmt = seqStatements.get(sqlite)
-  if (!stmt) {
-    stmt = sqlite.prepare<[], { value: number }>(
-      'UPDATE change_seq SET value = value + 1 WHERE id = 1 RETURNING value',
-    )
-    seqStatements.set(sqlite, stmt)
-  }
-  const row = stmt.get()
+  const row = seqStatements(sqlite).next.get()
   if (!row) throw new Error('change_seq has no row: run the migrations first')
   return row.value
 }
@@ -105,9 +117,7 @@ export function currentServerSeq(conn: Conn): number {
   const sqlite = rawSqlite(conn)
   const held = heldSeqs.get(sqlite)
   if (held) return held.value
-  const row = sqlite.prepare('SELECT value FROM change_seq WHERE id = 1').get() as
-    { value: number } | undefined
-  return row?.value ?? 0
+  return seqStatements(sqlite).current.get()?.value ?? 0
 }
 
 /**
@@ -128,7 +138,7 @@ export function writeHeldServerSeq(conn: Conn): void {
   const held = heldSeqs.get(sqlite)
   if (!held) return
   heldSeqs.delete(sqlite)
-  sqlite.prepare('UPDATE change_seq SET value = ? WHERE id = 1').run(held.value)
+  seqStatements(sqlite).set.run(held.value)
 }
 
 /** Stops holding change sequence values, dropping the count (its transaction is rolled back). */
