@@ -101,6 +101,9 @@ export default defineConfig({
           testTimeout: 180_000,
           hookTimeout: 240_000,
           fileParallelism: false,
+          // expect.poll waits for the page (a photo compressed and stored, a sync round); 1 s, the default,
+          // is too short on a loaded two-core CI machine. These are waits, not timing checks.
+          expect: { poll: { timeout: 15_000 } },
         },
       },
     ],
