@@ -7,15 +7,33 @@ import { tmpdir } from 'node:os'
 import { join } from 'node:path'
 import { performance } from 'node:perf_hooks'
 import { pathToFileURL } from 'node:url'
+import cookieParser from 'cookie-parser'
+import express, { type Express } from 'express'
 import { pino } from 'pino'
 import { v7 } from 'uuid'
-import { type Database, openDatabase, writeTransaction } from '#db/client'
+import {
+  type Database,
+  dropHeldServerSeq,
+  holdServerSeq,
+  nextServerSeq,
+  openDatabase,
+  writeHeldServerSeq,
+  writeTransaction,
+} from '#db/client'
 import { runMigrations } from '#db/migrate'
 import { cables, closures, planRows, trays } from '#db/schema/index'
 import { demoUsers, seedDemo } from '#db/seed'
-import { maxMutationsPerPush, pullResponseSchema, pushResponseSchema } from '#shared/schemas/sync'
+import {
+  maxMutationsPerPush,
+  pullResponseSchema,
+  pushBodySchema,
+  pushResponseSchema,
+} from '#shared/schemas/sync'
 import { createApp } from '../../server/app'
 import { loadConfig } from '../../server/config'
+import type { AppContext } from '../../server/context'
+import { authorize } from '../../server/middleware/auth'
+import { ruleFor } from '../../server/policy'
 import { createLogger } from '../../server/middleware/logging'
 import { recomputeProjectTotals } from '../../server/repositories/splices'
 import type { BenchFigure } from './board.bench'
@@ -170,9 +188,7 @@ function rawInsert(database: Database, rows: Record<string, unknown>[], batch = 
 /** One commit of splice rows, as stored, with one prepared statement. */
 function rawSpliceInsert(database: Database): (rows: Record<string, unknown>[]) => void {
   const insert = database.sqlite.prepare(
-    `INSERT INTO splices (id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, method, loss_db,
-       attempt, resplice_reason, resplice_note, supersedes_id, accept_reason, notes, spliced_at, splicer_id, client_id,
-       is_current, flags, review_state, created_at, server_seq, deleted)
+    `INSERT INTO splices (${spliceColumns})
      VALUES (@id, @closure_id, @tray_id, @slot, @cable_a_id, @fiber_a, @cable_b_id, @fiber_b, @method, @loss_db,
        @attempt, @resplice_reason, @resplice_note, @supersedes_id, @accept_reason, @notes, @spliced_at, @splicer_id,
        @client_id, @is_current, @flags, @review_state, @created_at, @server_seq, @deleted)`,
@@ -191,9 +207,7 @@ function rawSpliceInsert(database: Database): (rows: Record<string, unknown>[]) 
 function rawInsertStored(database: Database, stored: StoredRows, batch: number): number {
   const { sqlite } = database
   const spliceInsert = sqlite.prepare(
-    `INSERT INTO splices (id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, method, loss_db,
-       attempt, resplice_reason, resplice_note, supersedes_id, accept_reason, notes, spliced_at, splicer_id, client_id,
-       is_current, flags, review_state, created_at, server_seq, deleted)
+    `INSERT INTO splices (${spliceColumns})
      VALUES (@id, @closure_id, @tray_id, @slot, @cable_a_id, @fiber_a, @cable_b_id, @fiber_b, @method, @loss_db,
        @attempt, @resplice_reason, @resplice_note, @supersedes_id, @accept_reason, @notes, @spliced_at, @splicer_id,
        @client_id, @is_current, @flags, @review_state, @created_at, @server_seq, @deleted)`,
@@ -222,6 +236,53 @@ function rawInsertStored(database: Database, stored: StoredRows, batch: number):
   for (let i = 0; i < stored.splices.length; i += batch)
     insertPart.immediate(i, Math.min(i + batch, stored.splices.length))
   return performance.now() - started
+}
+
+const spliceColumns = `id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, method, loss_db,
+  attempt, resplice_reason, resplice_note, supersedes_id, accept_reason, notes, spliced_at, splicer_id, client_id,
+  is_current, flags, review_state, created_at, server_seq, deleted`
+
+const transportFloorPath = '/bench/transport-floor'
+
+/**
+ * The push's transport alone, for comparison: a route on the same app, behind the same request log, security
+ * headers, 1 MiB JSON parser, cookie parser and sign-in check as POST /api/sync/push, that reads the same body
+ * with the same envelope schema and, in one BEGIN IMMEDIATE transaction, inserts each mutation's splice row as
+ * the baseline does, each with its own change sequence value, answering `applied` for each. None of SYNC.md's
+ * work per mutation: no args schema, rights, plan or conflict checks, totals, audit rows, stored answers or
+ * device seq. What this costs over the baseline is what HTTP, Express and the envelope take before any of it.
+ */
+function addTransportFloor(app: Express, database: Database): void {
+  const ctx = app.locals.ctx as AppContext
+  const { sqlite } = database
+  const insert = sqlite.prepare(
+    `INSERT INTO splices (${spliceColumns}) VALUES (@id, @closureId, @trayId, @slot, @cableAId, @fiberA, @cableBId,
+       @fiberB, @method, @lossDb, 1, NULL, NULL, NULL, NULL, '', @splicedAt, @splicerId, @clientId, 1, '[]', NULL,
+       @createdAt, @serverSeq, 0)`,
+  )
+  const store = sqlite.transaction((input: ReturnType<typeof pushBodySchema.parse>, at: string) => {
+    holdServerSeq(sqlite)
+    const results = input.mutations.map((mutation) => {
+      insert.run({ ...mutation.args, createdAt: at, serverSeq: nextServerSeq(sqlite) })
+      return { seq: mutation.seq, status: 'applied' as const }
+    })
+    writeHeldServerSeq(sqlite)
+    return { results, lastSeq: input.mutations.at(-1)!.seq }
+  })
+  app.post(
+    transportFloorPath,
+    express.json({ limit: '1mb', strict: true }),
+    cookieParser(),
+    authorize(ctx, ruleFor('POST /api/sync/push')!),
+    (req, res) => {
+      const input = pushBodySchema.parse(req.body)
+      try {
+        res.json(store.immediate(input, new Date().toISOString()))
+      } finally {
+        dropHeldServerSeq(sqlite)
+      }
+    },
+  )
 }
 
 /** What one push run left in its database, row for row. */
@@ -294,6 +355,8 @@ async function pushThroughApi(
     /** Make the middle mutation of every batch one the server refuses (a slot the tray does not have). */
     refuseOnePerBatch?: boolean
     client?: PushClient
+    /** Push to the transport floor route (see addTransportFloor) instead of POST /api/sync/push. */
+    transportFloor?: boolean
   } = {},
 ) {
   const count = options.splices ?? spliceCount
@@ -315,6 +378,8 @@ async function pushThroughApi(
     pino.destination({ dest: join(dir, `${name}.log`), sync: true }),
   )
   const app = createApp({ config, database: api.database, version: 'bench', logger })
+  if (options.transportFloor) addTransportFloor(app, api.database)
+  const pushPath = options.transportFloor ? transportFloorPath : '/api/sync/push'
   const server = app.listen(0, '127.0.0.1')
   await new Promise((resolve) => server.once('listening', resolve))
   const base = `http://127.0.0.1:${(server.address() as AddressInfo).port}`
@@ -357,10 +422,10 @@ async function pushThroughApi(
     // Both clients keep the connection alive between requests; the clock stops once the answer is parsed.
     const push = async (body: string): Promise<{ status: number; answer: unknown }> => {
       if (options.client !== 'fetch') {
-        const res = await poster.post('/api/sync/push', body, { Authorization: auth })
+        const res = await poster.post(pushPath, body, { Authorization: auth })
         return { status: res.status, answer: JSON.parse(res.text) }
       }
-      const res = await fetch(`${base}/api/sync/push`, {
+      const res = await fetch(`${base}${pushPath}`, {
         method: 'POST',
         headers: { 'Content-Type': 'application/json', Authorization: auth },
         body,
@@ -417,7 +482,8 @@ async function pushThroughApi(
       unknown
     >
     const refusedCount = options.refuseOnePerBatch ? count / maxMutationsPerPush : 0
-    if (splices.length !== count - refusedCount || answers.length !== count)
+    const answered = options.transportFloor ? 0 : count
+    if (splices.length !== count - refusedCount || answers.length !== answered)
       throw new Error('the push stored other rows than sent')
     return {
       pushMs,
@@ -449,10 +515,18 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
     )
     // Each repeat's raw insert takes the very rows its push stored, so every ratio compares like with like.
     const runs: Array<PushRun & { rawMs: number; rawBatchedMs: number; rawStoredMs: number }> = []
+    const floors: PushRun[] = []
     for (let r = 0; r < repeats; r += 1) {
       const interleaved = build(dir, `raw-interleaved-${r}`, shape)
       const api = await pushThroughApi(dir, `api-${r}`, shape, { interleaved: interleaved.database })
       interleaved.database.sqlite.close()
+      const floorBaseline = build(dir, `raw-floor-${r}`, shape)
+      const floor = await pushThroughApi(dir, `transport-floor-${r}`, shape, {
+        transportFloor: true,
+        interleaved: floorBaseline.database,
+      })
+      floorBaseline.database.sqlite.close()
+      floors.push(floor)
       const raw = build(dir, `raw-${r}`, shape)
       const rawMs = rawInsert(raw.database, api.stored.splices)
       raw.database.sqlite.close()
@@ -470,12 +544,18 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
           `${rawBatchedMs.toFixed(0)} ms in 100-row commits (${share(rawBatchedMs)}), ${rawMs.toFixed(0)} ms in one ` +
           `commit (${share(rawMs)}); every stored row ${rawStoredMs.toFixed(0)} ms (${share(rawStoredMs)})`,
       )
+      log(
+        `transport alone ${floor.pushMs.toFixed(0)} ms; its baseline ${floor.interleavedRawMs.toFixed(0)} ms ` +
+          `(${((100 * floor.interleavedRawMs) / floor.pushMs).toFixed(1)} %)`,
+      )
     }
     const median = (values: number[]) => [...values].sort((a, b) => a - b)[Math.floor(values.length / 2)]!
     // The median push, with its own raw inserts; the target ratio is the median of the runs' own ratios.
     const api = [...runs].sort((a, b) => a.pushMs - b.pushMs)[Math.floor(repeats / 2)]!
     const { rawMs, rawBatchedMs, rawStoredMs } = api
     const ratio = median(runs.map((run) => (100 * run.interleavedRawMs) / run.pushMs))
+    const floor = [...floors].sort((a, b) => a.pushMs - b.pushMs)[Math.floor(repeats / 2)]!
+    const floorRatio = median(floors.map((run) => (100 * run.interleavedRawMs) / run.pushMs))
     // Statement journals, and the savepoints of a batch run again guarded, spill to temp files past a few pages.
     const before = await pushThroughApi(dir, 'temp-default', shape, { tempStoreDefault: true })
     log(`with SQLite's default temp_store: ${before.pushMs.toFixed(0)} ms`)
@@ -545,6 +625,20 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
         figure: 'API throughput / raw throughput of every stored row, same commits',
         target: null,
         measured: (100 * rawStoredMs) / api.pushMs,
+        unit: '%',
+      },
+      // What HTTP, Express and the envelope leave of the baseline before any of SYNC.md's work (addTransportFloor).
+      {
+        figure: `push 10,000 through the transport alone (no SYNC.md work, raw splice inserts), median of ${repeats}`,
+        target: null,
+        measured: floor.pushMs / 1000,
+        unit: 's',
+        baseline: api.pushMs / 1000,
+      },
+      {
+        figure: `transport alone throughput / its baseline throughput, same run, median of ${repeats}`,
+        target: null,
+        measured: floorRatio,
         unit: '%',
       },
       {
