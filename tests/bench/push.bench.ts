@@ -174,6 +174,11 @@ export function spliceArgsFor(world: World, clientId: string, n: number) {
   }
 }
 
+/** The splices table's columns, in the order every raw insert here names them. */
+const spliceColumns = `id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, method, loss_db,
+  attempt, resplice_reason, resplice_note, supersedes_id, accept_reason, notes, spliced_at, splicer_id, client_id,
+  is_current, flags, review_state, created_at, server_seq, deleted`
+
 /**
  * Inserts the splices the API stored, as stored, with one prepared statement: in one transaction
  * (`batch` = all rows), or committing every `batch` rows as a push batch does (same durability).
@@ -237,10 +242,6 @@ function rawInsertStored(database: Database, stored: StoredRows, batch: number):
     insertPart.immediate(i, Math.min(i + batch, stored.splices.length))
   return performance.now() - started
 }
-
-const spliceColumns = `id, closure_id, tray_id, slot, cable_a_id, fiber_a, cable_b_id, fiber_b, method, loss_db,
-  attempt, resplice_reason, resplice_note, supersedes_id, accept_reason, notes, spliced_at, splicer_id, client_id,
-  is_current, flags, review_state, created_at, server_seq, deleted`
 
 const transportFloorPath = '/bench/transport-floor'
 
@@ -550,12 +551,15 @@ export async function main(options: { log?: (line: string) => void } = {}): Prom
       )
     }
     const median = (values: number[]) => [...values].sort((a, b) => a - b)[Math.floor(values.length / 2)]!
+    const medianRun = <R extends PushRun>(list: R[]) =>
+      [...list].sort((a, b) => a.pushMs - b.pushMs)[Math.floor(list.length / 2)]!
+    const ratioOf = (list: PushRun[]) => median(list.map((run) => (100 * run.interleavedRawMs) / run.pushMs))
     // The median push, with its own raw inserts; the target ratio is the median of the runs' own ratios.
-    const api = [...runs].sort((a, b) => a.pushMs - b.pushMs)[Math.floor(repeats / 2)]!
+    const api = medianRun(runs)
     const { rawMs, rawBatchedMs, rawStoredMs } = api
-    const ratio = median(runs.map((run) => (100 * run.interleavedRawMs) / run.pushMs))
-    const floor = [...floors].sort((a, b) => a.pushMs - b.pushMs)[Math.floor(repeats / 2)]!
-    const floorRatio = median(floors.map((run) => (100 * run.interleavedRawMs) / run.pushMs))
+    const ratio = ratioOf(runs)
+    const floor = medianRun(floors)
+    const floorRatio = ratioOf(floors)
     // Statement journals, and the savepoints of a batch run again guarded, spill to temp files past a few pages.
     const before = await pushThroughApi(dir, 'temp-default', shape, { tempStoreDefault: true })
     log(`with SQLite's default temp_store: ${before.pushMs.toFixed(0)} ms`)
